@@ -1,0 +1,44 @@
+"""Reference tables shipped with nmrcheck (CSV files with a ``source`` column) and their loader."""
+
+from __future__ import annotations
+
+import csv
+from functools import lru_cache
+from importlib import resources
+
+from nmrcheck.errors import TableError
+
+__all__ = ["load_table", "table_names"]
+
+
+def table_names() -> list[str]:
+    """Names (without ``.csv``) of every packaged table."""
+    return sorted(
+        p.name[:-4] for p in resources.files(__name__).iterdir() if p.name.endswith(".csv")
+    )
+
+
+@lru_cache(maxsize=None)
+def load_table(name: str) -> tuple[dict[str, str], ...]:
+    """Rows of the packaged table ``name`` as dicts of strings.
+
+    Lines starting with ``#`` are comments. Every row must have a non-empty
+    ``source`` column: a table value without a provenance is an error.
+    """
+    path = resources.files(__name__) / f"{name}.csv"
+    try:
+        text = path.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise TableError(f"no packaged table named {name!r}") from None
+    lines = [ln for ln in text.splitlines() if ln.strip() and not ln.lstrip().startswith("#")]
+    reader = csv.DictReader(lines)
+    if reader.fieldnames is None or "source" not in reader.fieldnames:
+        raise TableError(f"{name}.csv: no 'source' column")
+    rows = []
+    for lineno, row in enumerate(reader, start=2):
+        if None in row or any(v is None for v in row.values()):
+            raise TableError(f"{name}.csv row {lineno}: wrong number of fields")
+        if not row["source"].strip():
+            raise TableError(f"{name}.csv row {lineno}: empty source")
+        rows.append({k: v.strip() for k, v in row.items()})
+    return tuple(rows)
