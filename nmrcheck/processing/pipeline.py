@@ -1,0 +1,175 @@
+"""One call from a recording to a processed, referenced, integrated spectrum with a proton count."""
+
+from __future__ import annotations
+
+import os
+from dataclasses import asdict, dataclass, replace
+from typing import Any
+
+import numpy as np
+
+from nmrcheck.errors import ParameterError, ProcessingError
+from nmrcheck.io import Fid, SpectrumFile, read_any
+from nmrcheck.processing.baseline import correct_baseline
+from nmrcheck.processing.count import count_protons
+from nmrcheck.processing.noise import noise_level
+from nmrcheck.processing.phase import apply_phase, auto_phase
+from nmrcheck.processing.reference import reference_axis
+from nmrcheck.processing.regions import find_regions
+from nmrcheck.processing.results import PhaseCorrection, Processed
+from nmrcheck.processing.solvents import normalise_solvent
+from nmrcheck.processing.spectrum import ProcessingStep, Spectrum
+from nmrcheck.processing.transform import fourier_transform, spectrum_from_file
+
+__all__ = ["ProcessingOptions", "process", "snr_of"]
+
+
+@dataclass(frozen=True)
+class ProcessingOptions:
+    """Every choice processing makes, in physical units; stored with each result so it can be replayed."""
+
+    lb_hz: float = 0.3
+    size: int | None = None
+    solvent: str | None = None
+    """Overrides the solvent recorded in the file."""
+    phase: tuple[float, float] | None = None
+    """Manual (p0_deg, p1_deg) instead of automatic phasing."""
+    rephase_processed: bool = False
+    """Re-phase a spectrum read already processed (normally kept as the instrument left it)."""
+    baseline: str = "fabc"
+    reference: str = "auto"
+    threshold_snr: float = 6.0
+    margin_hz: float = 8.0
+    merge_hz: float = 6.0
+    anchor_h: int | None = None
+    suppression_halfwidth_ppm: float = 0.25
+    """Half-width left out around the carrier when the pulse program presaturates."""
+
+    def __post_init__(self) -> None:
+        if self.lb_hz < -5 or self.lb_hz > 50:
+            raise ParameterError(f"lb_hz: {self.lb_hz} Hz is outside -5..50 Hz")
+        if self.size is not None and (self.size < 256 or self.size & (self.size - 1)):
+            raise ParameterError(f"size: {self.size} must be a power of two of at least 256 points")
+        if self.solvent is not None and normalise_solvent(self.solvent) is None:
+            raise ParameterError(f"solvent: {self.solvent!r} is not in the solvent table")
+        if self.threshold_snr <= 0:
+            raise ParameterError(f"threshold_snr: must be positive, got {self.threshold_snr}")
+
+    def as_dict(self) -> dict[str, Any]:
+        return asdict(self)
+
+
+def _suppression_ranges(spectrum: Spectrum, options: ProcessingOptions) -> list[tuple[float, float]]:
+    """Ranges spoiled by solvent suppression: around the carrier when the pulse program presaturates."""
+    acq = spectrum.acquisition
+    prog = (acq.pulse_program or "").lower()
+    solvent = normalise_solvent(options.solvent or acq.solvent)
+    presat = "pr" in prog or "wg" in prog or "es" in prog.replace("noes", "")
+    if not presat and solvent != "D2O":
+        return []
+    if presat:
+        # The carrier sits on the suppressed line; its ppm on this axis:
+        centre = spectrum.first_ppm - spectrum.step_ppm * spectrum.size / 2.0
+    else:
+        centre = 4.79
+    h = options.suppression_halfwidth_ppm
+    return [(centre - h, centre + h)]
+
+
+def snr_of(spectrum: Spectrum, regions, noise: float) -> float:
+    """Signal-to-noise ratio: tallest counted analyte point over twice the noise standard deviation.
+
+    (Height over 2 sigma is a common convention for 1H SNR figures; from memory.)
+    """
+    best = 0.0
+    y = spectrum.data.real
+    for r in regions:
+        if r.counted:
+            sl = spectrum.slice_of(r.start_ppm, r.end_ppm)
+            if sl.stop > sl.start:
+                best = max(best, float(y[sl].max()))
+    return best / (2.0 * noise) if noise > 0 else 0.0
+
+
+def process(source: Fid | SpectrumFile | str | os.PathLike, options: ProcessingOptions | None = None, **overrides: Any) -> Processed:
+    """Process one recording: transform, phase, baseline, reference, integrate and count protons.
+
+    ``source`` is a path (any format :func:`nmrcheck.io.read_any` knows) or an
+    already-read FID or spectrum file. Keyword ``overrides`` replace fields of
+    ``options`` (e.g. ``process(path, lb_hz=1.0)``).
+    """
+    opts = options or ProcessingOptions()
+    if overrides:
+        unknown = set(overrides) - set(ProcessingOptions.__dataclass_fields__)
+        if unknown:
+            raise ParameterError(f"unknown processing option(s): {', '.join(sorted(unknown))}")
+        opts = replace(opts, **overrides)
+    record = read_any(source) if isinstance(source, (str, os.PathLike)) else source
+    warnings: list[str] = []
+    if isinstance(record, Fid):
+        spec = fourier_transform(record, lb_hz=opts.lb_hz, size=opts.size)
+        already_phased = False
+    else:
+        spec = spectrum_from_file(record)
+        already_phased = not opts.rephase_processed
+    if opts.solvent:
+        spec = replace(spec, acquisition=replace(spec.acquisition, solvent=normalise_solvent(opts.solvent)))
+    exclude = _suppression_ranges(spec, opts)
+    if opts.phase is not None:
+        p0, p1 = opts.phase
+        spec = apply_phase(spec, p0_deg=p0, p1_deg=p1)
+        phase = PhaseCorrection(p0, p1, spec.first_ppm, "manual")
+    elif already_phased:
+        phase = PhaseCorrection(0.0, 0.0, spec.first_ppm, "as processed by the instrument software")
+    else:
+        spec, phase = auto_phase(spec, exclude_ppm=exclude)
+        if phase.peaks_used == 0:
+            warnings.append("no peak above noise to phase on; spectrum left unphased")
+    spec = correct_baseline(spec, method=opts.baseline)
+    spec, ref = reference_axis(spec, solvent=opts.solvent, prefer=opts.reference)
+    if ref.kind == "none":
+        warnings.append(f"axis not referenced: {ref.name}")
+    else:
+        # Suppression ranges move with the axis.
+        shift = ref.ppm - (ref.found_ppm if ref.found_ppm is not None else ref.ppm)
+        exclude = [(a + shift, b + shift) for a, b in exclude]
+    noise = noise_level(spec.data.real)
+    ref_name = ref.name if ref.kind in ("TMS", "DSS") else None
+    regions = find_regions(
+        spec,
+        noise=noise,
+        threshold_snr=opts.threshold_snr,
+        margin_hz=opts.margin_hz,
+        merge_hz=opts.merge_hz,
+        solvent=opts.solvent,
+        reference_name=ref_name,
+        exclude_ppm=exclude,
+    )
+    count = None
+    if any(r.counted for r in regions):
+        sigmas = []
+        for r in regions:
+            sl = spec.slice_of(r.start_ppm, r.end_ppm)
+            sigmas.append(noise * spec.step_ppm * np.sqrt(max(1, sl.stop - sl.start)))
+        regions, count = count_protons(regions, integral_sigma=sigmas, anchor_h=opts.anchor_h)
+    else:
+        warnings.append("no analyte signal above the noise threshold")
+    snr = snr_of(spec, regions, noise)
+    spec = spec.evolve(ProcessingStep("integrate", {"threshold_snr": opts.threshold_snr, "margin_hz": opts.margin_hz, "merge_hz": opts.merge_hz}))
+    return Processed(
+        spectrum=spec,
+        phase=phase,
+        reference=ref,
+        regions=tuple(regions),
+        count=count,
+        snr=snr,
+        noise=noise,
+        warnings=tuple(warnings),
+    )
+
+
+def require_signal(processed: Processed) -> Processed:
+    """Raise :class:`ProcessingError` when nothing could be counted (for callers that need a count)."""
+    if processed.count is None:
+        raise ProcessingError(f"{processed.spectrum.source}: no analyte signal above the noise threshold")
+    return processed
