@@ -43,6 +43,7 @@ DEFAULT_ELEMENTS = "C H N O P S"
 # second-group compositions remain to be searched, small enough to sort in well under a
 # second and to keep in memory for the next query.
 _FIRST_GROUP_SIZE = 2_500_000
+_SECOND_GROUP_TARGET = 20_000
 _SECOND_GROUP_CHUNK = 200_000
 
 ElementRanges = Mapping[str, tuple[int, int | None]]
@@ -171,11 +172,18 @@ class Pruning:
         Element/C ratio maxima; implies at least one carbon.
     hydrogen_carbon_min : float or None
         H/C minimum.
+    even_valence : bool
+        Skip compositions whose sum of valences is odd (no closed-shell neutral).
+    probability_groups : tuple of (int, tuple of (str, int))
+        Element-probability groups: when every element of a group occurs more than the
+        given number of times, each must stay below its limit.
     """
 
     rdbe_nonnegative: bool = False
     carbon_ratio_max: tuple[tuple[str, float], ...] = ()
     hydrogen_carbon_min: float | None = None
+    even_valence: bool = False
+    probability_groups: tuple[tuple[int, tuple[tuple[str, int], ...]], ...] = ()
 
     @property
     def needs_carbon(self) -> bool:
@@ -205,7 +213,7 @@ def enumerate_formulas(
     Returns
     -------
     FormulaTable
-        Sorted by mass.
+        In no particular order.
     """
     ranges = check_element_ranges(ranges)
     if not (np.isfinite(low_mass) and np.isfinite(high_mass)) or low_mass > high_mass:
@@ -236,52 +244,32 @@ def _empty(elements: tuple[str, ...]) -> FormulaTable:
     return FormulaTable(elements, np.zeros((0, len(elements)), dtype=np.int32), np.zeros(0))
 
 
-def _split(bounds: tuple[tuple[str, int, int], ...]) -> tuple[tuple[int, ...], tuple[int, ...]]:
-    """Column indices of the tabulated (first) and searched (second) element groups."""
-    sizes = [hi - lo + 1 for _, lo, hi in bounds]
-    symbols = [s for s, _, _ in bounds]
-    first = [i for i, s in enumerate(symbols) if s in ("C", "H")]
-    rest = sorted((i for i in range(len(bounds)) if i not in first), key=lambda i: -sizes[i])
-    size = math.prod(sizes[i] for i in first) if first else 1
-    if not first and rest:
-        first.append(rest.pop(0))
-        size = sizes[first[0]]
-    while rest and size * sizes[rest[0]] <= _FIRST_GROUP_SIZE:
-        i = rest.pop(0)
-        first.append(i)
-        size *= sizes[i]
-    return tuple(sorted(first)), tuple(sorted(rest))
+def _cross(counts: np.ndarray, lo: int, hi: int) -> np.ndarray:
+    """Every row of ``counts`` extended by every count ``lo..hi`` of one more element."""
+    values = np.arange(lo, hi + 1, dtype=np.int16)
+    left = np.repeat(counts, values.size, axis=0)
+    right = np.tile(values, counts.shape[0])[:, None]
+    return np.concatenate([left, right], axis=1)
 
 
-def _other_side_rdbe_max(bounds, columns) -> float:
-    """Largest sum of n*(v-2) the given columns can contribute."""
-    total = 0.0
-    for i in columns:
-        symbol, lo, hi = bounds[i]
-        w = element(symbol).valence - 2
-        total += max(lo * w, hi * w)
-    return total
+def _prune(counts, symbols, bounds_rest, pruning: Pruning, cap: float) -> np.ndarray:
+    """Rows of a partial composition (columns ``symbols``) that can still be completed.
 
-
-@lru_cache(maxsize=16)
-def _group_table(bounds, columns, other, pruning: Pruning, cap: float):
-    """All compositions of the ``columns`` group, pruned, sorted by mass (cached)."""
-    grids = [np.arange(bounds[i][1], bounds[i][2] + 1, dtype=np.int32) for i in columns]
-    masses_el = np.array([element(bounds[i][0]).monoisotopic_mass for i in columns])
-    if grids:
-        mesh = np.meshgrid(*grids, indexing="ij")
-        counts = np.stack([g.ravel() for g in mesh], axis=1)
-    else:
-        counts = np.zeros((1, 0), dtype=np.int32)
-    mass = counts @ masses_el if columns else np.zeros(1)
-    keep = mass <= cap + 1e-6
-    symbols = [bounds[i][0] for i in columns]
+    ``bounds_rest`` are the (symbol, lo, hi) of the elements not yet in ``counts``: they
+    give the best case the rest of the composition can reach.
+    """
+    keep = np.ones(counts.shape[0], dtype=bool)
+    if not counts.shape[1]:
+        return keep
+    mass = counts @ np.array([element(s).monoisotopic_mass for s in symbols])
+    rest_min_mass = sum(lo * element(s).monoisotopic_mass for s, lo, _ in bounds_rest)
+    keep &= mass + rest_min_mass <= cap + 1e-6
     if pruning.rdbe_nonnegative:
         w = np.array([element(s).valence - 2 for s in symbols], dtype=np.int64)
-        part = counts @ w if columns else np.zeros(1)
-        keep &= part + _other_side_rdbe_max(bounds, other) >= -2
+        best_rest = sum(max(lo * (element(s).valence - 2), hi * (element(s).valence - 2)) for s, lo, hi in bounds_rest)
+        keep &= counts.astype(np.int64) @ w + best_rest >= -2
     if "C" in symbols:
-        c = counts[:, symbols.index("C")]
+        c = counts[:, symbols.index("C")].astype(np.float64)
         if pruning.needs_carbon:
             keep &= c >= 1
         for symbol, rmax in pruning.carbon_ratio_max:
@@ -289,64 +277,141 @@ def _group_table(bounds, columns, other, pruning: Pruning, cap: float):
                 keep &= counts[:, symbols.index(symbol)] <= rmax * c + 1e-9
         if pruning.hydrogen_carbon_min is not None and "H" in symbols:
             keep &= counts[:, symbols.index("H")] >= pruning.hydrogen_carbon_min * c - 1e-9
-    counts = counts[keep]
-    mass = mass[keep]
-    order = np.argsort(mass, kind="stable")
+    for group_more_than, group_limits in pruning.probability_groups:
+        if not all(s in symbols for s in group_limits):
+            continue
+        applies = np.ones(counts.shape[0], dtype=bool)
+        within = np.ones(counts.shape[0], dtype=bool)
+        for s, below in group_limits:
+            x = counts[:, symbols.index(s)]
+            applies &= x > group_more_than
+            within &= x < below
+        keep &= ~applies | within
+    return keep
+
+
+@dataclass(frozen=True, eq=False)
+class _Group:
+    """Compositions of a group of elements, sorted by (valence parity, mass)."""
+
+    columns: tuple[int, ...]
+    counts: np.ndarray
+    masses: np.ndarray
+    parity_start: tuple[int, int, int]  # rows [start[p], start[p+1]) have parity p
+
+
+def _sorted_group(columns, counts, bounds) -> _Group:
+    symbols = [bounds[i][0] for i in columns]
+    masses = counts @ np.array([element(s).monoisotopic_mass for s in symbols]) if columns else np.zeros(counts.shape[0])
+    odd = np.array([(element(s).valence - 2) % 2 for s in symbols], dtype=np.int64)
+    parity = (counts.astype(np.int64) @ odd) % 2 if columns else np.zeros(counts.shape[0], dtype=np.int64)
+    order = np.lexsort((masses, parity))
     counts = np.ascontiguousarray(counts[order])
-    mass = np.ascontiguousarray(mass[order])
+    masses = np.ascontiguousarray(masses[order])
+    n_even = int(np.count_nonzero(parity == 0))
     # Cached and shared between queries: nobody may write into them.
     counts.setflags(write=False)
-    mass.setflags(write=False)
-    return counts, mass
+    masses.setflags(write=False)
+    return _Group(tuple(columns), counts, masses, (0, n_even, counts.shape[0]))
+
+
+@lru_cache(maxsize=16)
+def _groups(bounds, pruning: Pruning, cap: float) -> tuple[_Group, _Group]:
+    """Split the elements into a tabulated and a searched group and build both (cached).
+
+    Carbon and hydrogen go first into the tabulated group, then the other elements, widest
+    range first, while the pruned table stays below ``_FIRST_GROUP_SIZE`` rows.
+    """
+    symbols = [s for s, _, _ in bounds]
+    order = [i for i, s in enumerate(symbols) if s == "C"] + [i for i, s in enumerate(symbols) if s == "H"]
+    order += sorted((i for i in range(len(bounds)) if i not in order), key=lambda i: bounds[i][1] - bounds[i][2])
+    sizes = {i: bounds[i][2] - bounds[i][1] + 1 for i in range(len(bounds))}
+    first: list[int] = []
+    counts = np.zeros((1, 0), dtype=np.int16)
+    for k, i in enumerate(order):
+        essential = symbols[i] in ("C", "H") or not first
+        if not essential:
+            if math.prod(sizes[j] for j in order[k:]) <= _SECOND_GROUP_TARGET:
+                break
+            if counts.shape[0] * sizes[i] > 3 * _FIRST_GROUP_SIZE:
+                break
+        trial = _cross(counts, bounds[i][1], bounds[i][2])
+        cols = first + [i]
+        rest = [bounds[j] for j in range(len(bounds)) if j not in cols]
+        trial = trial[_prune(trial, [symbols[j] for j in cols], rest, pruning, cap)]
+        if not essential and trial.shape[0] > _FIRST_GROUP_SIZE:
+            break
+        first, counts = cols, trial
+    second = [i for i in order if i not in first]
+    b_counts = np.zeros((1, 0), dtype=np.int16)
+    done: list[int] = []
+    for i in second:
+        b_counts = _cross(b_counts, bounds[i][1], bounds[i][2])
+        done.append(i)
+        rest = [bounds[j] for j in range(len(bounds)) if j not in done]
+        b_counts = b_counts[_prune(b_counts, [symbols[j] for j in done], rest, pruning, cap)]
+    # Columns in ascending index order, as _search expects.
+    a_order = np.argsort(first)
+    b_order = np.argsort(done) if done else np.zeros(0, dtype=np.int64)
+    a = _sorted_group(tuple(sorted(first)), counts[:, a_order], bounds)
+    b = _sorted_group(tuple(sorted(done)), b_counts[:, b_order], bounds)
+    return a, b
 
 
 def _search(low, high, bounds, pruning: Pruning, cap: float) -> FormulaTable:
     symbols = tuple(s for s, _, _ in bounds)
-    first, second = _split(bounds)
-    a_counts, a_mass = _group_table(bounds, first, second, pruning, cap)
-    b_counts, b_mass = _group_table(bounds, second, first, pruning, cap)
-    if a_mass.size == 0 or b_mass.size == 0:
+    a, b = _groups(bounds, pruning, cap)
+    if a.masses.size == 0 or b.masses.size == 0:
         return _empty(symbols)
-    # Second-group compositions that some first-group one can complete into the window.
-    b_lo = np.searchsorted(b_mass, low - a_mass[-1] - 1e-9, side="left")
-    b_hi = np.searchsorted(b_mass, high - a_mass[0] + 1e-9, side="right")
-    b_index = np.arange(b_lo, b_hi)
-    if pruning.needs_carbon and "C" in [symbols[i] for i in first] and b_index.size:
-        # Ratio maxima with carbon in the other group: the carbon they need adds mass.
-        second_symbols = [symbols[i] for i in second]
-        c_min = np.ones(b_index.size)
-        for symbol, rmax in pruning.carbon_ratio_max:
-            if symbol in second_symbols and rmax > 0:
-                c_min = np.maximum(c_min, np.ceil(b_counts[b_index, second_symbols.index(symbol)] / rmax - 1e-9))
-        b_index = b_index[b_mass[b_index] + c_min * element("C").monoisotopic_mass <= high + 1e-9]
+    a_symbols = [symbols[i] for i in a.columns]
+    b_symbols = [symbols[i] for i in b.columns]
     pieces_a, pieces_b = [], []
-    for start in range(0, b_index.size, _SECOND_GROUP_CHUNK):
-        chunk = b_index[start : start + _SECOND_GROUP_CHUNK]
-        mb = b_mass[chunk]
-        lo_i = np.searchsorted(a_mass, low - mb - 1e-9, side="left")
-        hi_i = np.searchsorted(a_mass, high - mb + 1e-9, side="right")
-        n = hi_i - lo_i
-        hit = n > 0
-        if not hit.any():
-            continue
-        chunk, lo_i, n = chunk[hit], lo_i[hit], n[hit]
-        total = int(n.sum())
-        rep_b = np.repeat(chunk, n)
-        # a index runs lo_i[j] .. lo_i[j]+n[j]-1 for each b chunk entry j.
-        offsets = np.arange(total) - np.repeat(np.cumsum(n) - n, n)
-        rep_a = np.repeat(lo_i, n) + offsets
-        pieces_a.append(rep_a)
-        pieces_b.append(rep_b)
+    for b_parity in (0, 1):
+        b_start, b_stop = b.parity_start[b_parity], b.parity_start[b_parity + 1]
+        # With even valence sums required, a second-group part of parity p only pairs with a
+        # first-group part of the same parity; otherwise with either.
+        a_parities = (b_parity,) if pruning.even_valence else (0, 1)
+        for a_parity in a_parities:
+            a_start, a_stop = a.parity_start[a_parity], a.parity_start[a_parity + 1]
+            if a_start == a_stop or b_start == b_stop:
+                continue
+            a_mass = a.masses[a_start:a_stop]
+            b_mass = b.masses[b_start:b_stop]
+            # Second-group parts that some first-group part can complete into the window.
+            lo_b = np.searchsorted(b_mass, low - a_mass[-1] - 1e-9, side="left")
+            hi_b = np.searchsorted(b_mass, high - a_mass[0] + 1e-9, side="right")
+            b_index = np.arange(b_start + lo_b, b_start + hi_b)
+            if pruning.needs_carbon and "C" in a_symbols and b_index.size:
+                # Ratio maxima for elements of the second group: the carbon they need adds mass.
+                c_min = np.ones(b_index.size)
+                for symbol, rmax in pruning.carbon_ratio_max:
+                    if symbol in b_symbols and rmax > 0:
+                        need = np.ceil(b.counts[b_index, b_symbols.index(symbol)] / rmax - 1e-9)
+                        c_min = np.maximum(c_min, need)
+                b_index = b_index[b.masses[b_index] + c_min * element("C").monoisotopic_mass <= high + 1e-9]
+            for start in range(0, b_index.size, _SECOND_GROUP_CHUNK):
+                chunk = b_index[start : start + _SECOND_GROUP_CHUNK]
+                mb = b.masses[chunk]
+                lo_i = np.searchsorted(a_mass, low - mb - 1e-9, side="left")
+                hi_i = np.searchsorted(a_mass, high - mb + 1e-9, side="right")
+                n = hi_i - lo_i
+                hit = n > 0
+                if not hit.any():
+                    continue
+                chunk, lo_i, n = chunk[hit], lo_i[hit], n[hit]
+                total = int(n.sum())
+                # first-group rows lo_i[j] .. lo_i[j]+n[j]-1 complete second-group row chunk[j]
+                offsets = np.arange(total) - np.repeat(np.cumsum(n) - n, n)
+                pieces_a.append(a_start + np.repeat(lo_i, n) + offsets)
+                pieces_b.append(np.repeat(chunk, n))
     if not pieces_a:
         return _empty(symbols)
     ia = np.concatenate(pieces_a)
     ib = np.concatenate(pieces_b)
     counts = np.zeros((ia.size, len(symbols)), dtype=np.int32)
-    counts[:, list(first)] = a_counts[ia]
-    if second:
-        counts[:, list(second)] = b_counts[ib]
+    counts[:, list(a.columns)] = a.counts[ia]
+    if b.columns:
+        counts[:, list(b.columns)] = b.counts[ib]
     masses = counts @ np.array([element(s).monoisotopic_mass for s in symbols])
     inside = (masses >= low) & (masses <= high)
-    counts, masses = counts[inside], masses[inside]
-    order = np.argsort(masses, kind="stable")
-    return FormulaTable(symbols, counts[order], masses[order])
+    return FormulaTable(symbols, counts[inside], masses[inside])

@@ -454,10 +454,12 @@ def _read_jcamp_spectrum(path: Path) -> SpectrumFile:
     sf = _num(p.get("SF")) or acq.spectrometer_mhz
     first_last = _jcamp_first_last(dic)
     offset = _num(p.get("OFFSET"))
+    # nmrglue drops underscores from JCAMP-DX labels: $SW_p arrives as $SWP.
+    sw_p = _num(p.get("SW_p")) or _num(p.get("SWP"))
     n = spec.shape[-1]
-    if offset is not None and _num(p.get("SW_p")):
+    if offset is not None and sw_p:
         first = offset
-        last = offset - _num(p["SW_p"]) / sf * (n - 1) / n
+        last = offset - sw_p / sf * (n - 1) / n
     elif first_last is not None:
         first, last = (v / sf for v in first_last)
     else:

@@ -12,9 +12,9 @@ from nmrcheck.processing.results import ProtonCount, Region
 
 __all__ = ["count_protons", "find_unit"]
 
-#: Weighted mean squared distance of region H values from integers below which a unit is
-#: accepted; uniformly random fractions give 1/12 = 0.083 (the value for no fit at all).
-ACCEPT_MISFIT = 0.012
+#: Cost per proton when choosing the unit (see find_unit); uniformly random fractions give a
+#: misfit of 1/12 = 0.083, so a unit that doubles a 10 H count must fit 0.04 better to win.
+PARSIMONY = 0.004
 #: Relative integration error added to the range of the total, for baseline and
 #: relaxation losses (common practice for routine, not fully quantitative, spectra).
 SYSTEMATIC_FRACTION = 0.03
@@ -28,18 +28,21 @@ def _misfit(integrals: np.ndarray, unit: float) -> float:
     d = h[big] - np.round(h[big])
     w = integrals[big]
     small_share = integrals[~big].sum() / integrals.sum()
+    # A region sitting near half a proton off its integer is a sign of the wrong
+    # unit (a 1 H doublet read as 0.5 H), unless it is a minor share of the signal.
+    off_share = w[np.abs(d) > 0.3].sum() / integrals.sum()
     # Regions that would hold under half a proton count against the unit: a real
     # compound's signals each hold at least one.
-    return float(np.sum(w * d * d) / w.sum() + 0.25 * small_share)
+    return float(np.sum(w * d * d) / w.sum() + 0.25 * small_share + 2.0 * max(0.0, off_share - 0.03))
 
 
 def find_unit(integrals: Sequence[float], *, max_h_per_region: int = 12) -> tuple[float, float]:
     """(integral of one proton, its misfit) from a set of region integrals.
 
     Candidate units are each region's integral divided by 1..``max_h_per_region``;
-    the largest unit whose weighted integer misfit is below ``ACCEPT_MISFIT`` is
-    taken (a smaller unit that also fits, e.g. half of it, would double every
-    count without better agreement); with none below, the best-fitting one.
+    the one minimising misfit + ``PARSIMONY`` x total protons is taken: a smaller
+    unit that also fits (half of it, say) doubles every count without better
+    agreement and loses.
     """
     arr = np.asarray([x for x in integrals if x > 0], float)
     if arr.size == 0:
@@ -47,11 +50,10 @@ def find_unit(integrals: Sequence[float], *, max_h_per_region: int = 12) -> tupl
     top = np.sort(arr)[::-1][:12]
     cands = np.unique(np.concatenate([top / m for m in range(1, max_h_per_region + 1)]))
     cands = cands[cands >= arr.max() / (3 * max_h_per_region)]
+    # Parsimony: every extra proton must buy a better integer fit. PARSIMONY per proton
+    # is about what a random (no-fit) misfit of 1/12 costs over 20 protons.
     scored = [(u, _misfit(arr, u)) for u in cands[::-1]]
-    for u, m in scored:
-        if m < ACCEPT_MISFIT:
-            return _polish(arr, u), m
-    u, m = min(scored, key=lambda t: t[1])
+    u, m = min(scored, key=lambda t: t[1] + PARSIMONY * arr.sum() / t[0])
     return _polish(arr, u), m
 
 

@@ -12,16 +12,19 @@ from nmrcheck.processing.spectrum import ProcessingStep, Spectrum
 __all__ = ["find_peak", "reference_axis"]
 
 
-def find_peak(spectrum: Spectrum, centre_ppm: float, *, window_ppm: float, min_snr: float = 10.0) -> float | None:
-    """Shift of the tallest point of the real spectrum within ``centre +- window`` (parabolic vertex), or None."""
-    sl = spectrum.slice_of(centre_ppm + window_ppm, centre_ppm - window_ppm)
-    y = spectrum.data.real[sl]
-    if y.size < 3:
-        return None
-    k = int(np.argmax(y))
-    if y[k] < min_snr * noise_level(spectrum.data.real):
-        return None
-    i = sl.start + k
+def _half_width_hz(spectrum: Spectrum, i: int) -> float:
+    y = spectrum.data.real
+    half = y[i] / 2.0
+    lo, hi = i, i
+    limit = int(30.0 / spectrum.hz_per_point) + 2
+    while lo > 0 and y[lo] > half and i - lo < limit:
+        lo -= 1
+    while hi < y.size - 1 and y[hi] > half and hi - i < limit:
+        hi += 1
+    return (hi - lo) * spectrum.hz_per_point
+
+
+def _vertex(spectrum: Spectrum, i: int) -> float:
     frac = 0.0
     if 0 < i < spectrum.size - 1:
         a, b, c = spectrum.data.real[i - 1 : i + 2]
@@ -30,18 +33,40 @@ def find_peak(spectrum: Spectrum, centre_ppm: float, *, window_ppm: float, min_s
     return float(spectrum.first_ppm - (i + frac) * spectrum.step_ppm)
 
 
-def _is_sharp_singlet(spectrum: Spectrum, ppm: float, *, max_width_hz: float = 3.0) -> bool:
-    """True when the line at ``ppm`` is narrow (half-height width below ``max_width_hz``)."""
-    i = spectrum.index_of(ppm)
+def find_peak(
+    spectrum: Spectrum,
+    centre_ppm: float,
+    *,
+    window_ppm: float,
+    min_snr: float = 10.0,
+    max_width_hz: float | None = None,
+) -> float | None:
+    """Shift of the reference line near ``centre_ppm``, or None.
+
+    Windows of 0.03, 0.1 and then ``window_ppm`` are searched in turn; in each,
+    local maxima above ``min_snr`` x noise and, when ``max_width_hz`` is given,
+    no wider than that at half height, are candidates, and the one nearest to
+    ``centre_ppm`` (ties to the taller) wins. Searching narrow first keeps an
+    analyte multiplet beside the solvent line from being taken for it.
+    """
     y = spectrum.data.real
-    half = y[i] / 2.0
-    lo, hi = i, i
-    limit = int(10 * max_width_hz / spectrum.hz_per_point) + 2
-    while lo > 0 and y[lo] > half and i - lo < limit:
-        lo -= 1
-    while hi < y.size - 1 and y[hi] > half and hi - i < limit:
-        hi += 1
-    return (hi - lo) * spectrum.hz_per_point <= max_width_hz
+    floor = min_snr * noise_level(y)
+    for w in sorted({min(0.03, window_ppm), min(0.1, window_ppm), window_ppm}):
+        sl = spectrum.slice_of(centre_ppm + w, centre_ppm - w)
+        seg = y[sl]
+        if seg.size < 3:
+            continue
+        idx = [sl.start + k for k in range(1, seg.size - 1) if seg[k] >= seg[k - 1] and seg[k] > seg[k + 1] and seg[k] > floor]
+        if max_width_hz is not None:
+            idx = [i for i in idx if _half_width_hz(spectrum, i) <= max_width_hz]
+        if not idx:
+            continue
+        tallest = max(y[i] for i in idx)
+        # Lines under a tenth of the tallest candidate are noise spikes or satellites.
+        idx = [i for i in idx if y[i] >= 0.1 * tallest]
+        best = min(idx, key=lambda i: (abs(_vertex(spectrum, i) - centre_ppm), -y[i]))
+        return _vertex(spectrum, best)
+    return None
 
 
 def reference_axis(
@@ -67,20 +92,32 @@ def reference_axis(
     if prefer == "none" or name is None:
         why = "none" if prefer == "none" else f"none (solvent {solvent or spectrum.solvent!r} unknown)"
         return spectrum, Reference("none", why, spectrum.first_ppm, None, "")
-    found: tuple[str, str, float, float, str] | None = None
+    lb = float(next((st.params.get("lb_hz", 0.0) for st in spectrum.history if st.name == "fourier_transform"), 0.0))
+    sharp = 2.5 + 2.0 * max(lb, 0.0)
+    standard = None
     if prefer in ("auto", "standard"):
         for sig in solvent_signals(name, kind="reference"):
-            at = find_peak(spectrum, sig.ppm, window_ppm=search_ppm, min_snr=20.0)
-            if at is not None and _is_sharp_singlet(spectrum, at):
-                found = (sig.name, sig.name, sig.ppm, at, sig.source)
-                break
-    if found is None and prefer in ("auto", "solvent"):
-        residuals = sorted(solvent_signals(name, kind="residual"), key=lambda s: -s.ppm)
-        for sig in residuals:
-            at = find_peak(spectrum, sig.ppm, window_ppm=search_ppm, min_snr=5.0)
+            at = find_peak(spectrum, sig.ppm, window_ppm=search_ppm, min_snr=20.0, max_width_hz=sharp)
             if at is not None:
-                found = ("solvent", f"{sig.name} in {name}", sig.ppm, at, sig.source)
+                standard = (sig.name, sig.name, sig.ppm, at, sig.source)
                 break
+    residual = None
+    if prefer in ("auto", "solvent"):
+        for sig in sorted(solvent_signals(name, kind="residual"), key=lambda s: -s.ppm):
+            at = find_peak(spectrum, sig.ppm, window_ppm=search_ppm, min_snr=5.0, max_width_hz=sharp)
+            if at is not None:
+                residual = ("solvent", f"{sig.name} in {name}", sig.ppm, at, sig.source)
+                break
+    found = standard or residual
+    if standard and residual:
+        # Both seen: they must agree on the axis. When they do not, a line near 0 ppm
+        # was not the standard (grease, an analyte methyl); keep the one needing the
+        # smaller correction of the spectrometer's own axis.
+        # HDO moves with temperature and is distorted by presaturation: never let it
+        # overrule DSS.
+        s_std, s_res = standard[2] - standard[3], residual[2] - residual[3]
+        if name != "D2O" and abs(s_std - s_res) > 0.03 and abs(s_res) < abs(s_std):
+            found = residual
     if found is None:
         return spectrum, Reference("none", f"none (no reference signal found for {name})", spectrum.first_ppm, None, "")
     kind, label, target, at, source = found

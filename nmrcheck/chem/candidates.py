@@ -1,0 +1,546 @@
+"""Ranked candidate molecular formulas for one high-resolution MS feature.
+
+A feature is one or more observed m/z values, each with its ion species (the same compound
+as [M+H]+ and [M+Na]+, say), optionally with the isotope intensities of the first one. The
+neutral formulas whose ions fall within the mass tolerance of every m/z are enumerated
+exhaustively, filtered by the chosen chemical rules, scored and ranked.
+
+Score (a log-likelihood, 0 at best, higher is better) = mass part + isotope part:
+
+* mass: ``-0.5 * sum_i (error_i / sigma_i)**2`` over the observed ions, with the tolerance
+  taken as two standard deviations (``sigma_i = tolerance_i / 2``) and independent errors;
+* isotopes: ``-0.5 * chi2`` of the observed pattern against the predicted one
+  (:mod:`nmrcheck.chem.isotopes` states the error model).
+
+Each candidate's ``score_parts`` says what each part contributed.
+"""
+
+from __future__ import annotations
+
+import logging
+import math
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
+from functools import lru_cache
+from types import MappingProxyType
+
+import numpy as np
+
+from nmrcheck.chem.adducts import IonSpecies, neutral_mass, parse_ion
+from nmrcheck.chem.elements import element, hill_sort_key
+from nmrcheck.chem.enumerate import (
+    DEFAULT_ELEMENTS,
+    FormulaTable,
+    check_element_ranges,
+    enumerate_formulas,
+    parse_element_ranges,
+)
+from nmrcheck.chem.formula import Formula
+from nmrcheck.chem.isotopes import (
+    ABSOLUTE_ERROR,
+    RELATIVE_ERROR,
+    IsotopeFit,
+    agreement_limit,
+    fit_isotopes,
+    parse_intensities,
+    pattern_matrix,
+)
+from nmrcheck.chem.rules import (
+    RULE_NAMES,
+    _RATIO_RANGE,
+    element_count_limits,
+    evaluate_rules,
+    pruning_for,
+    rules_of_preset,
+)
+from nmrcheck.data import load_table
+from nmrcheck.errors import FormulaError, ParameterError, TableError
+
+__all__ = [
+    "IonMatch",
+    "FormulaCandidate",
+    "FormulaSearch",
+    "formula_candidates",
+    "formula_search",
+    "MAX_PPM",
+    "MAX_MDA",
+]
+
+log = logging.getLogger("nmrcheck")
+
+MAX_PPM = 50.0
+"""Largest ppm tolerance accepted: beyond it the data are not high-resolution."""
+MAX_MDA = 50.0
+"""Largest absolute tolerance accepted, mDa."""
+
+
+@dataclass(frozen=True)
+class IonMatch:
+    """How one observed ion fits a candidate.
+
+    Attributes
+    ----------
+    ion : str
+        Ion species, bracket notation.
+    mz_observed, mz_calculated : float
+    error_ppm : float
+        (observed - calculated) / calculated * 1e6.
+    error_mda : float
+        observed - calculated, mDa.
+    ion_formula : str
+        Elemental composition of the ion, Hill notation.
+    ion_rdbe : float
+        RDBE of the ion's composition: half-integer for an even-electron ion.
+    electrons : str
+        'even' or 'odd'.
+    """
+
+    ion: str
+    mz_observed: float
+    mz_calculated: float
+    error_ppm: float
+    error_mda: float
+    ion_formula: str
+    ion_rdbe: float
+    electrons: str
+
+
+@dataclass(frozen=True)
+class FormulaCandidate:
+    """One candidate neutral formula for a feature.
+
+    Attributes
+    ----------
+    formula : Formula
+    neutral_mass : float
+        Monoisotopic mass of the formula, u.
+    error_ppm : float
+        Mass error, ppm (observed - calculated), the tolerance-weighted mean over the ions.
+    rdbe : float
+        Ring-plus-double-bond equivalents of the neutral.
+    score : float
+        Log-likelihood, sum of ``score_parts``; higher is better.
+    rank : int
+        1 = best.
+    rules_passed, rules_failed : tuple of str
+        Rule names (:data:`nmrcheck.chem.rules.RULE_NAMES`) evaluated for this candidate.
+    score_parts : Mapping[str, float]
+        'mass' and, with observed isotopes, 'isotopes'.
+    ions : tuple of IonMatch
+        One per observed m/z.
+    isotope_fit : IsotopeFit or None
+    """
+
+    formula: Formula
+    neutral_mass: float
+    error_ppm: float
+    rdbe: float
+    score: float
+    rank: int
+    rules_passed: tuple[str, ...]
+    rules_failed: tuple[str, ...]
+    score_parts: Mapping[str, float] = field(default_factory=dict)
+    ions: tuple[IonMatch, ...] = ()
+    isotope_fit: IsotopeFit | None = None
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "score_parts", MappingProxyType(dict(self.score_parts)))
+
+
+@dataclass(frozen=True)
+class FormulaSearch:
+    """Everything :func:`formula_search` found.
+
+    Attributes
+    ----------
+    candidates : tuple of FormulaCandidate
+        Best first, at most ``max_candidates``.
+    features : tuple of (float, str)
+        Observed m/z and ion species, as given (canonical notation).
+    neutral_mass : float
+        Tolerance-weighted mean neutral mass from the observed ions, u.
+    mass_window : (float, float)
+        Neutral masses consistent with every ion, u.
+    elements : Mapping[str, tuple[int, int]]
+        Element ranges searched (after the mass and rule-1 limits).
+    rules : str
+        Preset used as filter.
+    n_in_window : int
+        Compositions within tolerance of every ion.
+    n_passed : int
+        Of those, how many pass the preset's rules (and are ranked).
+    """
+
+    candidates: tuple[FormulaCandidate, ...]
+    features: tuple[tuple[float, str], ...]
+    neutral_mass: float
+    mass_window: tuple[float, float]
+    elements: Mapping[str, tuple[int, int]]
+    rules: str
+    n_in_window: int
+    n_passed: int
+    ppm: float | None
+    mda: float | None
+    isotopes: tuple[float, ...] | None
+
+
+def _tolerance(mz: float, ppm: float | None, mda: float | None) -> float:
+    """Tolerance on the m/z axis: the larger of the ppm and the mDa limits."""
+    tol = 0.0
+    if ppm:
+        tol = max(tol, ppm * 1e-6 * mz)
+    if mda:
+        tol = max(tol, mda * 1e-3)
+    return tol
+
+
+def _check_tolerances(ppm, mda) -> tuple[float | None, float | None]:
+    for name, value, top in (("ppm", ppm, MAX_PPM), ("mda", mda, MAX_MDA)):
+        if value is None:
+            continue
+        if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
+            raise ParameterError(f"{name}: must be a number, got {value!r}")
+        if value < 0:
+            raise ParameterError(f"{name}: must be positive, got {value!r}")
+        if value > top:
+            raise ParameterError(f"{name}: {value:g} is beyond the {top:g} this engine accepts (not high-resolution data)")
+    if not ppm and not mda:
+        raise ParameterError("tolerance: give ppm or mda (both are missing or zero)")
+    return (float(ppm) if ppm else None), (float(mda) if mda else None)
+
+
+def _parse_features(features) -> list[tuple[float, IonSpecies]]:
+    if isinstance(features, tuple) and len(features) == 2 and isinstance(features[1], str):
+        features = [features]
+    try:
+        items = list(features)
+    except TypeError:
+        raise ParameterError(f"features: need a sequence of (m/z, ion) pairs, got {features!r}") from None
+    if not items:
+        raise ParameterError("features: no m/z given")
+    out = []
+    for item in items:
+        try:
+            mz, ion = item
+        except (TypeError, ValueError):
+            raise ParameterError(f"features: each entry must be (m/z, ion species), got {item!r}") from None
+        species = ion if isinstance(ion, IonSpecies) else parse_ion(ion)
+        neutral_mass(mz, species)  # validates m/z and that a positive neutral mass is left
+        out.append((float(mz), species))
+    return out
+
+
+def _search_ranges(
+    elements, window: tuple[float, float], preset: str, ions: list[IonSpecies]
+) -> dict[str, tuple[int, int]]:
+    """Element ranges after the mass, rule-1 and ion (losses need atoms) limits."""
+    if elements is None:
+        ranges = parse_element_ranges(DEFAULT_ELEMENTS)
+    elif isinstance(elements, str):
+        ranges = parse_element_ranges(elements)
+    else:
+        ranges = check_element_ranges(elements)
+    low, high = window
+    rule1: dict[str, int] = {}
+    if "element_counts" in rules_of_preset(preset):
+        # Limits grow with mass; take those of every mass range the window touches.
+        last = 0.0
+        for mass_below, limits in element_count_limits():
+            if high >= last and low < mass_below:
+                for s, v in limits.items():
+                    rule1[s] = max(rule1.get(s, 0), v)
+            last = mass_below
+        if high >= last:
+            rule1 = {}
+    out = {}
+    for symbol in sorted(ranges, key=hill_sort_key):
+        lo, hi = ranges[symbol]
+        most = int(math.floor(high / element(symbol).monoisotopic_mass))
+        hi = most if hi is None else min(hi, most)
+        if symbol in rule1:
+            hi = min(hi, rule1[symbol])
+        out[symbol] = (lo, hi)
+    for species in ions:
+        for symbol, n_lost in species.loss.counts.items():
+            need = math.ceil((n_lost - species.gain.count(symbol)) / species.molecules)
+            if need <= 0:
+                continue
+            lo, hi = out.get(symbol, (0, 0))
+            if need > hi:
+                raise FormulaError(
+                    f"ion {species.notation}: the molecule needs at least {need} {symbol}, "
+                    f"but the element ranges allow {symbol}{lo}-{hi}"
+                )
+            out[symbol] = (max(lo, need), hi)
+    return out
+
+
+def formula_search(
+    features: Sequence[tuple[float, str]],
+    *,
+    ppm: float | None = 3.0,
+    mda: float | None = None,
+    isotopes: Sequence[float] | str | None = None,
+    elements: Mapping[str, tuple[int, int | None]] | str | None = None,
+    rules: str = "common",
+    max_candidates: int = 20,
+    prior: str | None = "natural_products",
+    isotope_relative_error: float = RELATIVE_ERROR,
+    isotope_absolute_error: float = ABSOLUTE_ERROR,
+) -> FormulaSearch:
+    """Enumerate, filter, score and rank neutral formulas for one MS feature.
+
+    Parameters
+    ----------
+    features : sequence of (float, str)
+        Observed m/z and ion species in bracket notation, e.g.
+        ``[(301.1410, '[M+H]+'), (323.1230, '[M+Na]+')]``. All must agree on one neutral
+        mass within tolerance.
+    ppm, mda : float, optional
+        Mass tolerance per ion, ppm of m/z and/or mDa; with both, the larger applies.
+    isotopes : sequence of float or str, optional
+        Observed intensities of M+0, M+1, M+2, ... of the *first* ion (any scale).
+    elements : mapping or str, optional
+        Element ranges (``'C0-80 H0-150 N0-10 O0-40 S0-3 Cl0-2'``); default CHNOPS, each up
+        to what the mass and, with rule 1, the golden rules allow. F, Cl, Br, I, Si (and Na,
+        K) are available on request.
+    rules : {'common', 'extended', 'valence', 'none'}
+        Filter preset (:data:`nmrcheck.chem.rules.RULE_PRESETS`); every rule is evaluated
+        and reported whatever the preset.
+    max_candidates : int
+        Candidates returned at most.
+    prior : {'natural_products', None}
+        Add the log prior probability that a natural product contains each heteroatom the
+        formula has (``element_priors.csv``) as the score part 'prior'; None: no prior.
+    isotope_relative_error, isotope_absolute_error : float
+        Isotope error model (see :mod:`nmrcheck.chem.isotopes`).
+
+    Raises
+    ------
+    ParameterError
+        Bad m/z, tolerance, intensities, or m/z values that disagree on the neutral mass.
+    FormulaError
+        Unknown ion species or element, malformed element range.
+    """
+    parsed = _parse_features(features)
+    ppm, mda = _check_tolerances(ppm, mda)
+    rules_of_preset(rules)
+    if prior is not None and prior not in PRIORS:
+        raise ParameterError(f"prior: unknown {prior!r}; choose one of {', '.join(PRIORS)} or None")
+    if not isinstance(max_candidates, int) or isinstance(max_candidates, bool) or max_candidates < 1:
+        raise ParameterError(f"max_candidates: a whole number >= 1, got {max_candidates!r}")
+    observed = parse_intensities(isotopes) if isotopes is not None else None
+
+    # Neutral-mass window allowed by each ion; they must overlap.
+    windows, centres, sigmas = [], [], []
+    for mz, species in parsed:
+        tol = _tolerance(mz, ppm, mda)
+        z, n = abs(species.charge), species.molecules
+        lo = max(0.0, ((mz - tol) * z - species.mass_shift) / n)
+        hi = ((mz + tol) * z - species.mass_shift) / n
+        windows.append((lo, hi))
+        centres.append(neutral_mass(mz, species))
+        sigmas.append(tol * z / n / 2.0)
+    low = max(w[0] for w in windows)
+    high = min(w[1] for w in windows)
+    weights = np.array([1.0 / s**2 for s in sigmas])
+    centre = float(np.dot(weights, centres) / weights.sum())
+    if low > high:
+        i_lo = int(np.argmax([w[0] for w in windows]))
+        i_hi = int(np.argmin([w[1] for w in windows]))
+        apart = (centres[i_lo] - centres[i_hi]) / centre * 1e6
+        raise ParameterError(
+            f"the m/z values disagree on the neutral mass: {parsed[i_lo][0]:.5f} as "
+            f"{parsed[i_lo][1].notation} gives M = {centres[i_lo]:.5f}, {parsed[i_hi][0]:.5f} as "
+            f"{parsed[i_hi][1].notation} gives M = {centres[i_hi]:.5f} ({apart:+.1f} ppm apart, "
+            f"beyond the tolerance)"
+        )
+
+    ranges = _search_ranges(elements, (low, high), rules, [s for _, s in parsed])
+    # The window is the intersection over the ions, and losses have set minimum counts, so
+    # every composition found forms every ion within tolerance.
+    table = enumerate_formulas(low, high, ranges, pruning=pruning_for(rules))
+    n_in_window = len(table)
+
+    verdicts = evaluate_rules(table, ratio_range=_RATIO_RANGE[rules])
+    keep = np.ones(len(table), dtype=bool)
+    for rule in rules_of_preset(rules):
+        keep &= verdicts[rule]
+    table = table.take(keep)
+    verdicts = {k: v[keep] for k, v in verdicts.items()}
+    n_passed = len(table)
+
+    masses = table.masses
+    errors_ppm, errors_da, mz_calc = [], [], []
+    mass_part = np.zeros(len(table))
+    for (mz, species), sigma in zip(parsed, sigmas):
+        calc = (species.molecules * masses + species.mass_shift) / abs(species.charge)
+        err_da = mz - calc
+        mz_calc.append(calc)
+        errors_da.append(err_da)
+        errors_ppm.append(err_da / calc * 1e6)
+        # sigma is on the neutral-mass axis; the same error on that axis:
+        mass_part += -0.5 * (err_da * abs(species.charge) / species.molecules / sigma) ** 2
+    w_ion = weights / weights.sum()
+    mean_ppm = sum(w * e for w, e in zip(w_ion, errors_ppm)) if len(table) else np.zeros(0)
+
+    iso_part = None
+    chi2 = scaled = None
+    dof = 0
+    if observed is not None and len(table):
+        ion_counts, ion_elements = _ion_counts(table, parsed[0][1])
+        predicted = pattern_matrix(ion_counts, ion_elements, len(observed))
+        chi2, scaled, dof = fit_isotopes(
+            observed,
+            predicted,
+            relative_error=isotope_relative_error,
+            absolute_error=isotope_absolute_error,
+        )
+        iso_part = -0.5 * chi2
+        limit = agreement_limit(dof)
+        verdicts["isotope_pattern"] = chi2 <= limit
+
+    prior_part = _prior_part(table, prior)
+    score = mass_part + (iso_part if iso_part is not None else 0.0)
+    if prior_part is not None:
+        score = score + prior_part
+    # Best score first; ties by smaller mass error, then formula mass.
+    order = np.lexsort((masses, np.abs(mean_ppm), -score))[:max_candidates]
+
+    candidates = []
+    for rank, i in enumerate(order, start=1):
+        formula = table.formula(int(i))
+        passed = tuple(r for r in RULE_NAMES if r in verdicts and bool(verdicts[r][i]))
+        failed = tuple(r for r in RULE_NAMES if r in verdicts and not bool(verdicts[r][i]))
+        parts = {"mass": float(mass_part[i])}
+        if prior_part is not None:
+            parts["prior"] = float(prior_part[i])
+        fit = None
+        if iso_part is not None:
+            parts["isotopes"] = float(iso_part[i])
+            fit = IsotopeFit(
+                observed=tuple(observed),
+                predicted=tuple(float(x) for x in scaled[i]),
+                chi2=float(chi2[i]),
+                dof=dof,
+                agrees=bool(verdicts["isotope_pattern"][i]),
+            )
+        matches = []
+        for k, (mz, species) in enumerate(parsed):
+            composition = formula * species.molecules + species.gain - species.loss
+            matches.append(
+                IonMatch(
+                    ion=species.notation,
+                    mz_observed=mz,
+                    mz_calculated=float(mz_calc[k][i]),
+                    error_ppm=float(errors_ppm[k][i]),
+                    error_mda=float(errors_da[k][i] * 1e3),
+                    ion_formula=composition.hill,
+                    ion_rdbe=composition.rdbe,
+                    electrons=species.electrons,
+                )
+            )
+        candidates.append(
+            FormulaCandidate(
+                formula=formula,
+                neutral_mass=float(masses[i]),
+                error_ppm=float(mean_ppm[i]),
+                rdbe=formula.rdbe,
+                score=float(score[i]),
+                rank=rank,
+                rules_passed=passed,
+                rules_failed=failed,
+                score_parts=parts,
+                ions=tuple(matches),
+                isotope_fit=fit,
+            )
+        )
+    log.debug(
+        "formula search M=%.5f window [%.5f, %.5f]: %d in window, %d pass %r",
+        centre, low, high, n_in_window, n_passed, rules,
+    )
+    return FormulaSearch(
+        candidates=tuple(candidates),
+        features=tuple((mz, s.notation) for mz, s in parsed),
+        neutral_mass=centre,
+        mass_window=(low, high),
+        elements=MappingProxyType(ranges),
+        rules=rules,
+        n_in_window=n_in_window,
+        n_passed=n_passed,
+        ppm=ppm,
+        mda=mda,
+        isotopes=observed,
+    )
+
+
+PRIORS = ("natural_products",)
+"""Named element priors (columns of ``element_priors.csv``)."""
+
+
+@lru_cache(maxsize=None)
+def _element_priors(name: str) -> dict[str, float]:
+    out = {}
+    for row in load_table("element_priors"):
+        p = float(row[name])
+        if not 0 < p < 1:
+            raise TableError(f"element_priors.csv: {row['element']}: probability {p} not in (0, 1)")
+        out[row["element"]] = p
+    return out
+
+
+def _prior_part(table: FormulaTable, prior: str | None) -> np.ndarray | None:
+    """Log prior of each row: sum over tabled elements of log p (present) or log(1-p) (absent)."""
+    if prior is None:
+        return None
+    part = np.zeros(len(table))
+    for symbol, p in _element_priors(prior).items():
+        present = table.column(symbol) > 0
+        part += np.where(present, math.log(p), math.log1p(-p))
+    # Only differences between candidates matter; anchor an all-absent formula at 0.
+    part -= sum(math.log1p(-p) for p in _element_priors(prior).values())
+    return part
+
+
+def _ion_counts(table: FormulaTable, species: IonSpecies) -> tuple[np.ndarray, tuple[str, ...]]:
+    """Count matrix of the ion compositions of every row."""
+    elements = tuple(sorted(set(table.elements) | set(species.gain.counts) | set(species.loss.counts), key=hill_sort_key))
+    counts = np.zeros((len(table), len(elements)), dtype=np.int64)
+    for j, symbol in enumerate(elements):
+        counts[:, j] = (
+            table.column(symbol).astype(np.int64) * species.molecules
+            + species.gain.count(symbol)
+            - species.loss.count(symbol)
+        )
+    return counts, elements
+
+
+def formula_candidates(
+    features: Sequence[tuple[float, str]],
+    *,
+    ppm: float | None = 3.0,
+    mda: float | None = None,
+    isotopes: Sequence[float] | str | None = None,
+    elements: Mapping[str, tuple[int, int | None]] | str | None = None,
+    rules: str = "common",
+    max_candidates: int = 20,
+    prior: str | None = "natural_products",
+) -> tuple[FormulaCandidate, ...]:
+    """Ranked candidate neutral formulas for one MS feature (see :func:`formula_search`).
+
+    Examples
+    --------
+    >>> best = formula_candidates([(195.08765, "[M+H]+")], ppm=3, isotopes=[100, 10.2, 0.7])[0]
+    >>> best.formula.hill
+    'C8H10N4O2'
+    """
+    return formula_search(
+        features,
+        ppm=ppm,
+        mda=mda,
+        isotopes=isotopes,
+        elements=elements,
+        rules=rules,
+        max_candidates=max_candidates,
+        prior=prior,
+    ).candidates

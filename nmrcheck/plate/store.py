@@ -1,0 +1,194 @@
+"""The results database: one SQLite file per plate folder, one transaction per well, history kept.
+
+Killing a run loses at most the wells in flight: a well's result is committed as soon as it
+arrives, and a rerun skips wells with a current result for the same options.
+"""
+
+from __future__ import annotations
+
+import json
+import logging
+import os
+import sqlite3
+import time
+import uuid
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+from nmrcheck.plate.results import SpectrumTrace, WellResult
+
+__all__ = ["ResultsStore", "RunRecord", "DATABASE_NAME"]
+
+log = logging.getLogger("nmrcheck")
+
+DATABASE_NAME = "results.sqlite"
+SCHEMA_VERSION = 1
+
+_SCHEMA = """
+CREATE TABLE IF NOT EXISTS meta (key TEXT PRIMARY KEY, value TEXT NOT NULL);
+CREATE TABLE IF NOT EXISTS runs (
+    run_id TEXT PRIMARY KEY,
+    started_utc TEXT NOT NULL,
+    finished_utc TEXT,
+    manifest TEXT NOT NULL,
+    options_json TEXT NOT NULL,
+    software_version TEXT NOT NULL,
+    status TEXT NOT NULL
+);
+CREATE TABLE IF NOT EXISTS results (
+    well TEXT NOT NULL,
+    options_hash TEXT NOT NULL,
+    run_id TEXT NOT NULL REFERENCES runs(run_id),
+    recorded_utc TEXT NOT NULL,
+    seq INTEGER NOT NULL,
+    status TEXT NOT NULL,
+    verdict TEXT NOT NULL,
+    result_json TEXT NOT NULL,
+    trace BLOB,
+    PRIMARY KEY (well, options_hash)
+);
+CREATE TABLE IF NOT EXISTS history (
+    seq INTEGER PRIMARY KEY AUTOINCREMENT,
+    well TEXT NOT NULL,
+    options_hash TEXT NOT NULL,
+    run_id TEXT NOT NULL,
+    recorded_utc TEXT NOT NULL,
+    status TEXT NOT NULL,
+    verdict TEXT NOT NULL,
+    result_json TEXT NOT NULL
+);
+CREATE INDEX IF NOT EXISTS history_well ON history (well);
+"""
+
+
+def _utc() -> str:
+    return time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime()) + f"{time.time() % 1:.6f}"[1:]
+
+
+@dataclass(frozen=True)
+class RunRecord:
+    run_id: str
+    started_utc: str
+    finished_utc: str | None
+    manifest: str
+    options: dict[str, Any]
+    software_version: str
+    status: str
+    """'running', 'complete' (every well has a result), 'stopped' (time limit) or 'interrupted'."""
+
+
+class ResultsStore:
+    """The SQLite results database of one plate output folder.
+
+    Parameters
+    ----------
+    path
+        The database file, or an output folder (``results.sqlite`` inside it).
+    """
+
+    def __init__(self, path: str | os.PathLike) -> None:
+        p = Path(path)
+        if p.is_dir() or not p.suffix:
+            p.mkdir(parents=True, exist_ok=True)
+            p = p / DATABASE_NAME
+        self.path = p
+        # isolation_level=None: transactions are explicit, one per well.
+        self._conn = sqlite3.connect(str(p), timeout=30.0, isolation_level=None)
+        self._conn.execute("PRAGMA journal_mode=WAL")
+        self._conn.execute("PRAGMA synchronous=NORMAL")
+        self._conn.executescript(_SCHEMA)
+        self._conn.execute("INSERT OR IGNORE INTO meta VALUES ('schema_version', ?)", (str(SCHEMA_VERSION),))
+
+    # -- context management
+    def close(self) -> None:
+        self._conn.close()
+
+    def __enter__(self) -> "ResultsStore":
+        return self
+
+    def __exit__(self, *exc) -> None:
+        self.close()
+
+    # -- runs
+    def start_run(self, *, manifest: str, options: dict[str, Any], software_version: str) -> str:
+        run_id = time.strftime("%Y%m%dT%H%M%S", time.gmtime()) + "-" + uuid.uuid4().hex[:8]
+        with self._transaction():
+            # A run that never finished was killed: say so rather than leave it 'running'.
+            self._conn.execute("UPDATE runs SET status='interrupted' WHERE status='running'")
+            self._conn.execute(
+                "INSERT INTO runs VALUES (?, ?, NULL, ?, ?, ?, 'running')",
+                (run_id, _utc(), manifest, json.dumps(options, sort_keys=True, default=str), software_version),
+            )
+        return run_id
+
+    def finish_run(self, run_id: str, status: str) -> None:
+        with self._transaction():
+            self._conn.execute("UPDATE runs SET finished_utc=?, status=? WHERE run_id=?", (_utc(), status, run_id))
+
+    def runs(self) -> list[RunRecord]:
+        rows = self._conn.execute("SELECT * FROM runs ORDER BY started_utc").fetchall()
+        return [RunRecord(r[0], r[1], r[2], r[3], json.loads(r[4]), r[5], r[6]) for r in rows]
+
+    # -- results
+    def save(self, run_id: str, result: WellResult) -> None:
+        """Store one well's result in its own transaction: current row replaced, history appended."""
+        payload = result.to_json()
+        blob = result.trace.to_bytes() if result.trace is not None else None
+        now = _utc()
+        with self._transaction():
+            cur = self._conn.execute(
+                "INSERT INTO history (well, options_hash, run_id, recorded_utc, status, verdict, result_json) "
+                "VALUES (?, ?, ?, ?, ?, ?, ?)",
+                (result.well, result.options_hash, run_id, now, result.status, result.verdict, payload),
+            )
+            self._conn.execute(
+                "INSERT OR REPLACE INTO results VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)",
+                (result.well, result.options_hash, run_id, now, cur.lastrowid, result.status, result.verdict, payload, blob),
+            )
+
+    def finished(self) -> set[tuple[str, str]]:
+        """(well, options hash) pairs that have a current result."""
+        return {(w, h) for w, h in self._conn.execute("SELECT well, options_hash FROM results")}
+
+    def current(self, *, with_trace: bool = True) -> dict[str, WellResult]:
+        """The latest result of every well (whatever its options), by well name."""
+        col = "trace" if with_trace else "NULL"
+        rows = self._conn.execute(
+            f"SELECT well, result_json, {col} FROM results r WHERE seq = "
+            "(SELECT MAX(seq) FROM results WHERE well = r.well)"
+        ).fetchall()
+        out = {}
+        for well, payload, blob in rows:
+            trace = SpectrumTrace.from_bytes(blob) if blob else None
+            out[well] = WellResult.from_dict(json.loads(payload), trace)
+        return out
+
+    def history(self, well: str) -> list[dict[str, Any]]:
+        """Every result ever recorded for ``well``, oldest first, with run id and time."""
+        rows = self._conn.execute(
+            "SELECT seq, run_id, recorded_utc, options_hash, status, verdict, result_json FROM history "
+            "WHERE well=? ORDER BY seq",
+            (well,),
+        ).fetchall()
+        return [
+            {"seq": r[0], "run_id": r[1], "recorded_utc": r[2], "options_hash": r[3], "status": r[4], "verdict": r[5], "result": json.loads(r[6])}
+            for r in rows
+        ]
+
+    def count_history(self) -> int:
+        return int(self._conn.execute("SELECT COUNT(*) FROM history").fetchone()[0])
+
+    def _transaction(self):
+        conn = self._conn
+
+        class _T:
+            def __enter__(self_inner) -> None:
+                conn.execute("BEGIN IMMEDIATE")
+
+            def __exit__(self_inner, et, ev, tb) -> bool:
+                conn.execute("COMMIT" if et is None else "ROLLBACK")
+                return False
+
+        return _T()
+

@@ -1,0 +1,1 @@
+"""Reports: plots, HTML pages and text tables of nmrcheck results."""

@@ -1,0 +1,108 @@
+"""Known natural products for the formula-engine validation: name, class, SMILES and molecular formula.
+
+The SMILES and formulas were written from memory; the tests take the formula and exact mass
+that RDKit computes from each SMILES as the truth, and check that it agrees with the formula
+written here (so a slip in either is caught).
+"""
+
+from __future__ import annotations
+
+# Peptides written residue by residue; each entry is the SMILES of -NH-CHR-CO- with the
+# backbone nitrogen first and the carbonyl carbon last.
+_RESIDUE = {
+    "G": "NCC(=O)",
+    "A": "NC(C)C(=O)",
+    "V": "NC(C(C)C)C(=O)",
+    "L": "NC(CC(C)C)C(=O)",
+    "I": "NC(C(C)CC)C(=O)",
+    "F": "NC(Cc1ccccc1)C(=O)",
+    "Y": "NC(Cc1ccc(O)cc1)C(=O)",
+    "Q": "NC(CCC(N)=O)C(=O)",
+    "N": "NC(CC(N)=O)C(=O)",
+    "O": "NC(CCCN)C(=O)",  # ornithine
+    "Abu": "NC(CC)C(=O)",
+    "Sar": "N(C)CC(=O)",
+    "MeL": "N(C)C(CC(C)C)C(=O)",
+    "MeV": "N(C)C(C(C)C)C(=O)",
+    "MeBmt": "N(C)C(C(O)C(C)CC=CC)C(=O)",
+}
+
+
+def _cyclic(residues: list[str]) -> str:
+    """SMILES of a head-to-tail cyclic peptide (Pro written as 'P')."""
+    parts = []
+    ring = 2
+    for k, r in enumerate(residues):
+        if r == "P":
+            frag = f"N{ring}CCCC{ring}C(=O)"
+            ring += 1
+        else:
+            frag = _RESIDUE[r]
+        if k == 0:
+            frag = frag[0] + "9" + frag[1:]  # ring bond from the first backbone N ...
+        parts.append(frag)
+    last = parts[-1]
+    parts[-1] = last[: -len("C(=O)")] + "C9=O"  # ... to the last carbonyl carbon
+    return "".join(parts)
+
+
+_GRAMICIDIN_S = _cyclic(["V", "O", "L", "F", "P"] * 2)
+_CYCLOSPORIN_A = _cyclic(["MeBmt", "Abu", "Sar", "MeL", "V", "MeL", "A", "A", "MeL", "MeL", "MeV"])
+# Oxytocin: Cys-Tyr-Ile-Gln-Asn-Cys-Pro-Leu-Gly-NH2, disulfide between the two Cys.
+_OXYTOCIN = (
+    "NC(CS1)C(=O)" + _RESIDUE["Y"] + _RESIDUE["I"] + _RESIDUE["Q"] + _RESIDUE["N"]
+    + "NC(CS1)C(=O)" + "N2CCCC2C(=O)" + _RESIDUE["L"] + "NCC(N)=O"
+)
+_LEU_ENKEPHALIN = _RESIDUE["Y"] + _RESIDUE["G"] + _RESIDUE["G"] + _RESIDUE["F"] + _RESIDUE["L"] + "O"
+_GLUC = "OC1C(O)C(O)C(CO)OC1"  # glucopyranosyl, attached through its anomeric carbon (last C)
+
+NATURAL_PRODUCTS: tuple[tuple[str, str, str, str], ...] = (
+    # name, class, SMILES, formula (from memory)
+    ("nicotine", "alkaloid", "CN1CCCC1c1cccnc1", "C10H14N2"),
+    ("caffeine", "alkaloid", "Cn1cnc2c1c(=O)n(C)c(=O)n2C", "C8H10N4O2"),
+    ("morphine", "alkaloid", "CN1CCC23c4c5ccc(O)c4OC2C(O)C=CC3C1C5", "C17H19NO3"),
+    ("strychnine", "alkaloid", "O=C1CC2OCC=C3CN4CCC56C4CC3C2C6N1c1ccccc15", "C21H22N2O2"),
+    ("colchicine", "alkaloid", "COc1cc2c(c(OC)c1OC)-c1ccc(OC)c(=O)cc1C(NC(C)=O)CC2", "C22H25NO6"),
+    ("reserpine", "alkaloid",
+     "COC(=O)C1C(OC)C(OC(=O)c2cc(OC)c(OC)c(OC)c2)CC2CN3CCc4c([nH]c5cc(OC)ccc45)C3CC21", "C33H40N2O9"),
+    ("apigenin", "flavonoid", "O=c1cc(-c2ccc(O)cc2)oc2cc(O)cc(O)c12", "C15H10O5"),
+    ("quercetin", "flavonoid", "O=c1c(O)c(-c2ccc(O)c(O)c2)oc2cc(O)cc(O)c12", "C15H10O7"),
+    ("epigallocatechin gallate", "flavonoid",
+     "O=C(OC1Cc2c(O)cc(O)cc2OC1c1cc(O)c(O)c(O)c1)c1cc(O)c(O)c(O)c1", "C22H18O11"),
+    ("rutin", "flavonoid glycoside",
+     "CC1OC(OCC2OC(Oc3c(-c4ccc(O)c(O)c4)oc4cc(O)cc(O)c4c3=O)C(O)C(O)C2O)C(O)C(O)C1O", "C27H30O16"),
+    ("naringin", "flavonoid glycoside",
+     "CC1OC(OC2C(Oc3cc(O)c4c(c3)OC(c3ccc(O)cc3)CC4=O)OC(CO)C(O)C2O)C(O)C(O)C1O", "C27H32O14"),
+    ("menthol", "terpenoid", "CC(C)C1CCC(C)CC1O", "C10H20O"),
+    ("artemisinin", "terpenoid", "CC1CCC2C(C)C(=O)OC3OC4(C)CCC1C32OO4", "C15H22O5"),
+    ("oleanolic acid", "terpenoid",
+     "CC1(C)CCC2(C(=O)O)CCC3(C)C(=CCC4C5(C)CCC(O)C(C)(C)C5CCC43C)C2C1", "C30H48O3"),
+    ("paclitaxel", "terpenoid",
+     "CC(=O)OC1C(=O)C2(C)C(O)CC3OCC3(OC(C)=O)C2C(OC(=O)c2ccccc2)C2(O)CC(OC(=O)C(O)C(NC(=O)c3ccccc3)c3ccccc3)C(C)=C1C2(C)C",
+     "C47H51NO14"),
+    ("salicin", "glycoside", "OCc1ccccc1O" + "C1OC(CO)C(O)C(O)C1O", "C13H18O7"),
+    ("amygdalin", "cyanogenic glycoside",
+     "N#CC(OC1OC(COC2OC(CO)C(O)C(O)C2O)C(O)C(O)C1O)c1ccccc1", "C20H27NO11"),
+    ("digitoxin", "cardiac glycoside",
+     "CC1OC(OC2C(O)CC(OC3C(O)CC(OC4CCC5(C)C(CCC6C5CCC5(C)C(C7=CC(=O)OC7)CCC65O)C4)OC3C)OC2C)CC(O)C1O",
+     "C41H64O13"),
+    ("stevioside", "diterpenoid glycoside",
+     "CC12CCCC(C)(C1CCC13CC(=C)C(C1)(OC1OC(CO)C(O)C(O)C1OC1OC(CO)C(O)C(O)C1O)CCC23)C(=O)OC1OC(CO)C(O)C(O)C1O",
+     "C38H60O18"),
+    ("glutathione", "peptide", "NC(CCC(=O)NC(CS)C(=O)NCC(=O)O)C(=O)O", "C10H17N3O6S"),
+    ("leucine enkephalin", "peptide", _LEU_ENKEPHALIN, "C28H37N5O7"),
+    ("oxytocin", "peptide", _OXYTOCIN, "C43H66N12O12S2"),
+    ("gramicidin S", "cyclic peptide", _GRAMICIDIN_S, "C60H92N12O10"),
+    ("cyclosporin A", "cyclic peptide", _CYCLOSPORIN_A, "C62H111N11O12"),
+    ("griseofulvin", "halogenated polyketide", "COC1=CC(=O)CC(C)C12Oc1c(Cl)c(OC)cc(OC)c1C2=O", "C17H17ClO6"),
+    ("chloramphenicol", "halogenated", "OCC(NC(=O)C(Cl)Cl)C(O)c1ccc([N+](=O)[O-])cc1", "C11H12Cl2N2O5"),
+    ("salinosporamide A", "halogenated", "ClCCC1C(=O)NC2(C(O)C3CCCC=C3)C(=O)OC12C", "C15H20ClNO4"),
+    ("6,6'-dibromoindigo", "halogenated", "O=C1C(=C2Nc3cc(Br)ccc3C2=O)Nc2cc(Br)ccc21", "C16H8Br2N2O2"),
+    ("psammaplin A", "halogenated, sulfur",
+     "ON=C(Cc1ccc(O)c(Br)c1)C(=O)NCCSSCCNC(=O)C(=NO)Cc1ccc(O)c(Br)c1", "C22H24Br2N4O6S2"),
+    ("penicillin G", "sulfur", "CC1(C)SC2C(NC(=O)Cc3ccccc3)C(=O)N2C1C(=O)O", "C16H18N2O4S"),
+    ("sulforaphane", "sulfur", "CS(=O)CCCCN=C=S", "C6H11NOS2"),
+    ("biotin", "sulfur", "OC(=O)CCCCC1SCC2NC(=O)NC12", "C10H16N2O3S"),
+    ("gliotoxin", "sulfur", "CN1C(=O)C23CC4=CC=CC(O)C4N2C(=O)C1(CO)SS3", "C13H14N2O4S2"),
+    ("sinigrin", "sulfur glycoside", "C=CCC(=NOS(=O)(=O)O)SC1OC(CO)C(O)C(O)C1O", "C10H17NO9S2"),
+)
