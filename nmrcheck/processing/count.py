@@ -106,11 +106,14 @@ def count_protons(
     integer = int(np.sum(np.round(hs[hs >= 0.5])))
     noise_h = float(np.sqrt(np.sum((sig[counted_idx] / unit) ** 2))) if sig.size else 0.0
     half = 2.0 * noise_h + SYSTEMATIC_FRACTION * total + 0.3
+    # Minor regions (under half a proton each) may be impurities rather than the analyte:
+    # the low end of the range is what the major regions alone hold.
+    low = min(total - half, integer - 2.0 * noise_h - 0.3)
     residuals = tuple(float(h - np.round(h)) for h in hs)
     count = ProtonCount(
         unit_integral=unit,
         total_h=total,
-        total_h_low=max(0.0, total - half),
+        total_h_low=max(0.0, low),
         total_h_high=total + half,
         integer_h=integer,
         method=method,

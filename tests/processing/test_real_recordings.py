@@ -1,0 +1,71 @@
+"""The whole processor on the real recordings: reference position and proton count against the structure."""
+
+from __future__ import annotations
+
+import pytest
+
+from nmrcheck.processing import process
+from nmrcheck.processing.reference import find_peak
+from nmrcheck.processing.solvents import solvent_signals
+
+JCAMP = ["1047626-52-7", "140-67-0", "141-32-2", "16485-10-2", "2216-51-5", "2591-86-8", "2759-55-9",
+         "403-40-7", "492-62-6", "50-78-2", "517920-70-6", "620-71-3", "623-47-2", "623-70-1", "91-64-5"]
+BRUKER = ["aminoacid-mix-d2o-600", "aminoacid-mix-undried-1", "culture-medium-d2o", "glucose-d2o-600"]
+
+#: Recordings whose observed total does not (yet) reach the structure's H count, with the
+#: figure measured when this list was last updated. Kept visible, not tuned around.
+COUNT_MISSES: dict[str, str] = {}
+
+_cache: dict[str, object] = {}
+
+
+def _processed(refdata, name):
+    if name not in _cache:
+        path = refdata / "bruker-raw" / name if name in BRUKER else refdata / "jcamp-fid" / name / "1h.fid.dx"
+        _cache[name] = process(path)
+    return _cache[name]
+
+
+def _structure_h(path):
+    """(carbon-bound H, exchangeable H) of a molfile, counted with RDKit (the ground truth)."""
+    from rdkit import Chem
+
+    mol = Chem.AddHs(Chem.MolFromMolFile(str(path), removeHs=False))
+    carbon = exch = 0
+    for atom in mol.GetAtoms():
+        if atom.GetSymbol() != "H":
+            continue
+        heavy = atom.GetNeighbors()[0].GetSymbol()
+        if heavy == "C":
+            carbon += 1
+        else:
+            exch += 1
+    return carbon, exch
+
+
+@pytest.mark.parametrize("name", JCAMP + BRUKER)
+def test_reference_signal_at_table_value(refdata, name):
+    """After referencing, the signal that set the axis sits within 0.01 ppm of its table value
+    (solvents.csv: Gottlieb 1997 / Fulmer 2010 residual-solvent tables, from memory)."""
+    p = _processed(refdata, name)
+    if p.reference.kind == "none":
+        pytest.xfail(f"no reference line found: {p.reference.name}")
+    at = find_peak(p.spectrum, p.reference.ppm, window_ppm=0.05, min_snr=5.0)
+    assert at is not None and abs(at - p.reference.ppm) <= 0.01
+    listed = {s.ppm for s in solvent_signals(p.spectrum.solvent)}
+    assert p.reference.ppm in listed
+
+
+@pytest.mark.parametrize("name", JCAMP)
+def test_total_h_matches_structure(refdata, name):
+    """Observed total H range overlaps [carbon-bound H, all H] of structure.mol (RDKit count):
+    OH/NH/SH may be broad or missing, so they widen the allowance (common practice)."""
+    if name in COUNT_MISSES:
+        pytest.xfail(COUNT_MISSES[name])
+    p = _processed(refdata, name)
+    carbon, exch = _structure_h(refdata / "jcamp-fid" / name / "structure.mol")
+    c = p.count
+    assert c is not None
+    assert c.total_h_low <= carbon + exch and c.total_h_high >= carbon, (
+        f"{name}: observed {c.total_h:.2f} H ({c.total_h_low:.1f}-{c.total_h_high:.1f}), structure {carbon} C-H + {exch} exchangeable"
+    )
