@@ -105,3 +105,293 @@ def process_command(path, as_json, size, lb_hz, solvent, phase, anchor_h, save_s
         from nmrcheck.report.process_text import format_processed
 
         click.echo(format_processed(summary))
+
+
+# --- plate run / plate report -----------------------------------------------------------
+
+
+@main.group("plate", context_settings=CONTEXT)
+def plate_group() -> None:
+    """Screen a 96- or 384-well plate from a manifest, resumably; report on it."""
+
+
+@plate_group.command("run", context_settings=CONTEXT)
+@click.argument("manifest", type=click.Path(dir_okay=False))
+@click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False), help="Output folder (results database, report).")
+@click.option("--workers", type=click.IntRange(min=1), default=None, help="Local worker processes [default: every core].")
+@click.option("--watch", is_flag=True, help="Keep running; screen recordings as they become complete.")
+@click.option("--time-limit", "time_limit_h", type=click.FloatRange(min=0, min_open=True), default=None, help="Watch mode: stop after this many hours.")
+@click.option("--poll", "poll_s", type=click.FloatRange(min=0.05), default=10.0, show_default=True, help="Watch mode: seconds between looks at the plate folder.")
+@click.option("--redo", is_flag=True, help="Screen wells again even when they have a result for the same options.")
+@click.option("--layout", type=click.Choice(["96", "384"]), default=None, help="Plate format [default: from the well names].")
+@click.option("--lb", "lb_hz", type=float, default=None, help="Line broadening, Hz.")
+@click.option("--mass-tolerance", "mass_tolerance_ppm", type=float, default=None, help="HRMS tolerance, ppm.")
+@click.option("--scheduler", default=None, help="Dask distributed scheduler address (needs the 'dask' extra) instead of local processes.")
+@click.option("--no-report", is_flag=True, help="Do not write the HTML report and exports at the end.")
+@user_errors
+def plate_run(manifest, out_dir, workers, watch, time_limit_h, poll_s, redo, layout, lb_hz, mass_tolerance_ppm, scheduler, no_report) -> None:
+    """Screen every well of MANIFEST into --out; rerunning resumes. Exit 0 when the run completed."""
+    from dataclasses import replace
+
+    from nmrcheck.plate import ScreenOptions, progress_for, read_manifest, run_plate
+    from nmrcheck.processing import ProcessingOptions
+
+    plate = read_manifest(manifest, layout=layout)
+    processing = ProcessingOptions() if lb_hz is None else ProcessingOptions(lb_hz=lb_hz)
+    options = ScreenOptions(processing=processing)
+    if mass_tolerance_ppm is not None:
+        options = replace(options, mass_tolerance_ppm=mass_tolerance_ppm)
+    executor = client = None
+    if scheduler:
+        try:
+            from distributed import Client
+        except ImportError:
+            raise click.UsageError("--scheduler needs Dask distributed: pip install 'nmrcheck[dask]'") from None
+        client = Client(scheduler)
+        executor = client.get_executor()
+    try:
+        summary = run_plate(
+            plate,
+            out_dir,
+            options=options,
+            workers=workers,
+            executor=executor,
+            redo=redo,
+            watch=watch,
+            time_limit_s=time_limit_h * 3600 if time_limit_h else None,
+            poll_s=poll_s,
+            progress=progress_for(sys.stderr),
+        )
+    finally:
+        if client is not None:
+            client.close()
+    if not no_report:
+        from nmrcheck.report.plate_report import write_plate_report
+
+        report = write_plate_report(out_dir)
+        click.echo(f"report: {report}")
+    click.echo(summary.describe())
+
+
+@plate_group.command("report", context_settings=CONTEXT)
+@click.argument("out_dir", type=click.Path(file_okay=False, exists=True))
+@click.option("--title", default=None, help="Title of the page.")
+@user_errors
+def plate_report(out_dir, title) -> None:
+    """Write report.html, results.csv and results.json from the results in OUT_DIR."""
+    from nmrcheck.report.plate_report import write_plate_report
+
+    click.echo(f"report: {write_plate_report(out_dir, title=title)}")
+
+
+# --- demo -----------------------------------------------------------------------------------
+
+
+@main.command("demo", context_settings=CONTEXT)
+@click.option("--out", "out_dir", type=click.Path(file_okay=False), default="nmrcheck-demo", show_default=True, help="Folder for the demo plate and its results.")
+@click.option("--workers", type=click.IntRange(min=1), default=None, help="Local worker processes [default: every core].")
+@user_errors
+def demo(out_dir, workers) -> None:
+    """Build an invented 36-well plate of synthetic spectra and screen it end to end."""
+    from nmrcheck.demo import run_demo
+    from nmrcheck.plate import progress_for
+
+    summary, report, seconds = run_demo(out_dir, workers=workers, progress=progress_for(sys.stderr))
+    click.echo(f"demo plate screened in {seconds:.1f} s: {summary.describe()}")
+    click.echo(f"report: {report}")
+
+
+# --- quant: amount in the tube and go/no-go ------------------------------------------------
+
+
+def _ppm_range(text: str | None, option: str) -> tuple[float, float] | None:
+    if text is None:
+        return None
+    from nmrcheck.errors import ParameterError
+
+    try:
+        a, b = (float(v) for v in text.replace(",", ":").split(":"))
+    except ValueError:
+        raise ParameterError(f"{option}: expected START:END in ppm, got {text!r}") from None
+    return (a, b)
+
+
+@main.command("quant", context_settings=CONTEXT)
+@click.argument("spectrum", type=click.Path(exists=True))
+@click.option("--standard", help="Internal standard by name (see the standards table) or a label for --standard-range.")
+@click.option("--standard-nmol", type=float, help="Amount of the standard in the tube, nmol.")
+@click.option("--standard-mM", "standard_mm", type=float, help="Concentration of the standard in the tube, mM.")
+@click.option("--standard-range", help="START:END ppm of a user-defined standard's signal.")
+@click.option("--standard-h", type=int, help="Protons of the user-defined standard's signal.")
+@click.option("--solvent-reference", is_flag=True, help="Use the residual solvent signal (needs --deuteration and --volume-ul).")
+@click.option("--deuteration", type=float, help="Solvent lot's deuteration grade, atom % D (e.g. 99.8).")
+@click.option("--calibration", type=click.Path(exists=True), help="Calibration recording of a known sample on the same probe (PULCON).")
+@click.option("--calibration-mM", "calibration_mm", type=float, help="Concentration of the calibration compound, mM.")
+@click.option("--calibration-range", help="START:END ppm of the calibration signal.")
+@click.option("--calibration-h", type=int, help="Protons of the calibration signal.")
+@click.option("--volume-ul", type=float, help="Solution volume in the tube, microlitres.")
+@click.option("--range", "analyte_range", multiple=True, help="START:END ppm of the analyte signal (repeatable; default: all counted regions).")
+@click.option("--analyte-h", type=float, help="Protons the analyte ranges hold per molecule.")
+@click.option("--candidate", multiple=True, help="Candidate formula, SMILES or molar mass (g/mol); repeatable.")
+@click.option("--experiment", default="1H-13C HSQC", show_default=True, help="Next experiment to decide on (a name in the thresholds).")
+@click.option("--required-ug", type=float, help="Mass the next experiment needs (e.g. a bioassay), ug.")
+@click.option("--thresholds", type=click.Path(exists=True), help="User thresholds file (CSV, JSON or TOML) replacing the defaults.")
+@click.option("--longest-t1", type=float, help="Longest T1 expected for the analyte, s (default 3 s) for the relaxation warning.")
+@click.option("--json", "as_json", is_flag=True, help="Print the result as JSON.")
+@user_errors
+def quant_command(spectrum, standard, standard_nmol, standard_mm, standard_range, standard_h, solvent_reference, deuteration, calibration, calibration_mm, calibration_range, calibration_h, volume_ul, analyte_range, analyte_h, candidate, experiment, required_ug, thresholds, longest_t1, as_json):
+    """Estimate how much compound SPECTRUM's tube holds, and whether it is enough for the next experiment."""
+    import json
+
+    from nmrcheck.errors import ParameterError
+    from nmrcheck.processing import process
+    from nmrcheck.quant import ExternalCalibration, SolventReference, StandardReference, amount_for, quantify, recommend
+
+    chosen = sum(bool(x) for x in (standard, solvent_reference, calibration))
+    if chosen != 1:
+        raise ParameterError("reference: give exactly one of --standard, --solvent-reference or --calibration")
+    processed = process(spectrum)
+    if standard:
+        method = StandardReference(standard, nmol=standard_nmol, conc_mM=standard_mm, volume_ul=volume_ul, range_ppm=_ppm_range(standard_range, "--standard-range"), n_h=standard_h)
+    elif solvent_reference:
+        if deuteration is None or volume_ul is None:
+            raise ParameterError("--solvent-reference needs --deuteration (atom % D of the lot) and --volume-ul")
+        solvent = processed.spectrum.solvent
+        if not solvent:
+            raise ParameterError("--solvent-reference: the recording names no solvent")
+        method = SolventReference(solvent, deuteration_pct=deuteration, volume_ul=volume_ul)
+    else:
+        if calibration_mm is None or calibration_range is None or calibration_h is None:
+            raise ParameterError("--calibration needs --calibration-mM, --calibration-range and --calibration-h")
+        method = ExternalCalibration(process(calibration), conc_mM=calibration_mm, range_ppm=_ppm_range(calibration_range, "--calibration-range"), n_h=calibration_h, volume_ul=volume_ul)
+    ranges = [_ppm_range(r, "--range") for r in analyte_range] or None
+    amount = quantify(processed, method=method, analyte_range_ppm=ranges, analyte_h=analyte_h, longest_t1_s=longest_t1)
+    candidates = [amount_for(amount, float(c) if c.replace(".", "", 1).isdigit() else c) for c in candidate]
+    target = candidates[0] if candidates else amount
+    rec = recommend(target, amount.snr, experiment=experiment, config=thresholds, required_ug=required_ug, acquisition=processed.spectrum.acquisition)
+    result = {
+        "spectrum": str(spectrum),
+        "amount": amount.as_dict(),
+        "candidates": [c.as_dict() for c in candidates],
+        "snr": round(amount.snr, 1),
+        "recommendation": rec.as_dict(),
+    }
+    if as_json:
+        click.echo(json.dumps(result, indent=2))
+        return
+    a = amount
+    per = "nmol" if a.nmol_per_proton is not None else "mM"
+    value = a.nmol_per_proton if a.nmol_per_proton is not None else a.conc_mM_per_proton
+    click.echo(f"{spectrum}: {value:.3g} {per} per {a.analyte_h:g} H unit ({a.analyte_h_source}) +- {a.uncertainty_pct:.1f} % ({a.method}; SNR {a.snr:.0f})")
+    click.echo(f"  reference: {a.reference}")
+    for c in candidates:
+        bits = [f"{c.nmol:.3g} nmol" if c.nmol is not None else None, f"{c.ug:.3g} ug" if c.ug is not None else None, f"{c.conc_mM:.3g} mM" if c.conc_mM is not None else None]
+        click.echo(f"  {c.label} (M {c.molar_mass:.2f}, {c.n_h:g} H): {', '.join(b for b in bits if b)} +- {c.uncertainty_pct:.1f} %")
+    click.echo(f"  {rec.experiment}: {rec.decision.upper()}" + (f"; {rec.scans_needed} scans ({rec.hours_needed:.1f} h) for SNR {rec.target_snr:g}" if rec.scans_needed and rec.hours_needed is not None else ""))
+    for r in rec.reasons:
+        click.echo(f"    - {r}")
+    for w in a.warnings:
+        click.echo(f"  warning: {w}")
+
+
+@main.command("check", context_settings=CONTEXT)
+@click.argument("spectrum", type=click.Path(exists=True))
+@click.option("--formula", "formulas", multiple=True, help="Candidate formula (repeatable), e.g. C10H12O.")
+@click.option("--smiles", "smiles", multiple=True, help="Candidate SMILES, optionally followed by a name (repeatable).")
+@click.option("--candidates", "candidates_file", type=click.Path(exists=True), help="SMILES, MOL, SDF or CSV file of candidates.")
+@click.option("--mz", type=float, multiple=True, help="Observed m/z of the MS feature (repeat with one --ion each).")
+@click.option("--ion", multiple=True, help="Ion species of each --mz, e.g. [M+H]+.")
+@click.option("--ppm", "ppm_tol", type=float, default=5.0, show_default=True, help="Mass tolerance, ppm.")
+@click.option("--isotopes", help="Observed isotope intensities of the first ion, e.g. 100,11.2,0.9.")
+@click.option("--solvent", help="Override the solvent recorded in the file.")
+@click.option("--json", "as_json", is_flag=True, help="Print JSON.")
+@click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="Save an overlay of predicted shifts (PNG).")
+@user_errors
+def check_command(spectrum, formulas, smiles, candidates_file, mz, ion, ppm_tol, isotopes, solvent, as_json, plot_path):
+    """Check candidate formulas and structures against SPECTRUM and an MS feature.
+
+    With an MS feature and no candidates, the formula engine proposes them.
+    """
+    from nmrcheck.errors import ParameterError as _ParameterError
+    from nmrcheck.processing import process as _process
+    from nmrcheck.report.check_text import verdicts_json, verdicts_text
+    from nmrcheck.validate import MsFeature, candidates_from_file, candidates_from_ms, candidates_from_strings, check_candidates, evidence_from
+
+    if len(mz) != len(ion):
+        raise _ParameterError(f"--mz/--ion: give one --ion per --mz ({len(mz)} m/z, {len(ion)} ions)")
+    ms = None
+    if mz:
+        iso = None
+        if isotopes:
+            from nmrcheck.chem.isotopes import parse_intensities
+
+            iso = parse_intensities(isotopes)
+        ms = MsFeature(tuple(zip(mz, ion)), ppm=ppm_tol, isotopes=iso)
+    processed = _process(spectrum, **({"solvent": solvent} if solvent else {}))
+    cands, problems = candidates_from_strings(formulas, smiles)
+    if candidates_file:
+        more, bad = candidates_from_file(candidates_file)
+        cands, problems = cands + more, problems + bad
+    if not cands and not problems and ms is not None:
+        cands = candidates_from_ms(ms)
+    if not cands:
+        for p in problems:
+            click.echo(f"nmrcheck: skipped {p.label} ({p.origin}): {p.problem}", err=True)
+        raise _ParameterError("no usable candidate: give --formula, --smiles, --candidates or an MS feature (--mz/--ion)")
+    evidence = evidence_from(processed, ms)
+    verdicts = check_candidates(cands, evidence)
+    if plot_path:
+        from nmrcheck.report.check_plot import plot_check
+
+        plot_check(processed, verdicts, plot_path)
+    click.echo(verdicts_json(verdicts, problems, evidence=evidence) if as_json else verdicts_text(verdicts, problems, evidence=evidence))
+
+
+# --- formulas -----------------------------------------------------------------------------
+
+
+@main.command("formulas", context_settings={**CONTEXT, "ignore_unknown_options": True})
+@click.argument("mz", nargs=-1, required=True)
+@click.option("--ion", "ions", multiple=True, help="Ion species of each MZ, in order, e.g. '[M+H]+' (repeatable).")
+@click.option("--ppm", type=float, default=3.0, show_default=True, help="Mass tolerance per ion, ppm (0: use --mda only).")
+@click.option("--mda", type=float, default=None, help="Mass tolerance per ion, mDa (with --ppm the larger applies).")
+@click.option("--isotopes", help="Observed intensities of M+0, M+1, ... of the first ion, e.g. '100,16.8,2.3'.")
+@click.option("--elements", help="Element ranges, e.g. 'C0-80 H0-150 N0-10 O0-40 S0-3 Cl0-2' (default CHNOPS).")
+@click.option("--rules", type=click.Choice(["common", "extended", "valence", "none"]), default="common", show_default=True,
+              help="Filter preset: golden rules with common or extended ratio ranges, valence rules only, or none.")
+@click.option("--no-prior", is_flag=True, help="Score without the natural-product element prior.")
+@click.option("--max", "max_candidates", type=int, default=20, show_default=True, help="Candidates shown at most.")
+@click.option("--json", "as_json", is_flag=True, help="Print a JSON list of candidates.")
+@user_errors
+def formulas_command(mz, ions, ppm, mda, isotopes, elements, rules, no_prior, max_candidates, as_json):
+    """Ranked molecular formulas of the neutral compound behind MZ (one or more ions of one feature).
+
+    Give one --ion per MZ; all must agree on one neutral mass.
+    """
+    from nmrcheck.chem.candidates import formula_search
+    from nmrcheck.errors import ParameterError
+    from nmrcheck.report.formulas_text import format_search, search_json
+
+    values = []
+    for text in mz:
+        if text.startswith("--"):
+            raise ParameterError(f"unknown option {text}")
+        try:
+            values.append(float(text))
+        except ValueError:
+            raise ParameterError(f"m/z {text!r}: not a number") from None
+    if not ions:
+        raise ParameterError("--ion: give the ion species of each m/z, e.g. --ion '[M+H]+'")
+    if len(ions) != len(values):
+        raise ParameterError(f"--ion: give one --ion per m/z ({len(values)} m/z, {len(ions)} --ion)")
+    search = formula_search(
+        list(zip(values, ions)),
+        ppm=ppm or None,
+        mda=mda,
+        isotopes=isotopes,
+        elements=elements,
+        rules=rules,
+        max_candidates=max_candidates,
+        prior=None if no_prior else "natural_products",
+    )
+    click.echo(search_json(search) if as_json else format_search(search))

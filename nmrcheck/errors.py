@@ -44,3 +44,7 @@ class ManifestError(NmrcheckError):
         self.problems = list(problems)
         head = f"{self.path}: {len(self.problems)} problem(s) in the manifest"
         super().__init__(head + "".join(f"\n  {p}" for p in self.problems))
+
+
+class QuantificationError(NmrcheckError):
+    """A reference or analyte signal cannot be used to quantify (missing, overlapped, not positive); names it."""

@@ -30,6 +30,7 @@ from nmrcheck.chem.adducts import IonSpecies, neutral_mass, parse_ion
 from nmrcheck.chem.elements import element, hill_sort_key
 from nmrcheck.chem.enumerate import (
     DEFAULT_ELEMENTS,
+    MAX_COUNT,
     FormulaTable,
     check_element_ranges,
     enumerate_formulas,
@@ -50,6 +51,7 @@ from nmrcheck.chem.rules import (
     _RATIO_RANGE,
     element_count_limits,
     evaluate_rules,
+    filter_rules,
     pruning_for,
     rules_of_preset,
 )
@@ -166,7 +168,9 @@ class FormulaSearch:
     rules : str
         Preset used as filter.
     n_in_window : int
-        Compositions within tolerance of every ion.
+        Compositions within tolerance of every ion that the enumeration examined: all of
+        them with rules 'none'; with a preset, those its valence and ratio limits did not
+        already exclude while enumerating.
     n_passed : int
         Of those, how many pass the preset's rules (and are ranked).
     """
@@ -255,7 +259,7 @@ def _search_ranges(
     out = {}
     for symbol in sorted(ranges, key=hill_sort_key):
         lo, hi = ranges[symbol]
-        most = int(math.floor(high / element(symbol).monoisotopic_mass))
+        most = min(MAX_COUNT, int(math.floor(high / element(symbol).monoisotopic_mass)))
         hi = most if hi is None else min(hi, most)
         if symbol in rule1:
             hi = min(hi, rule1[symbol])
@@ -362,12 +366,7 @@ def formula_search(
     table = enumerate_formulas(low, high, ranges, pruning=pruning_for(rules))
     n_in_window = len(table)
 
-    verdicts = evaluate_rules(table, ratio_range=_RATIO_RANGE[rules])
-    keep = np.ones(len(table), dtype=bool)
-    for rule in rules_of_preset(rules):
-        keep &= verdicts[rule]
-    table = table.take(keep)
-    verdicts = {k: v[keep] for k, v in verdicts.items()}
+    table = filter_rules(table, rules_of_preset(rules), ratio_range=_RATIO_RANGE[rules])
     n_passed = len(table)
 
     masses = table.masses
@@ -397,8 +396,7 @@ def formula_search(
             absolute_error=isotope_absolute_error,
         )
         iso_part = -0.5 * chi2
-        limit = agreement_limit(dof)
-        verdicts["isotope_pattern"] = chi2 <= limit
+        isotope_agrees = chi2 <= agreement_limit(dof)
 
     prior_part = _prior_part(table, prior)
     score = mass_part + (iso_part if iso_part is not None else 0.0)
@@ -406,12 +404,16 @@ def formula_search(
         score = score + prior_part
     # Best score first; ties by smaller mass error, then formula mass.
     order = np.lexsort((masses, np.abs(mean_ppm), -score))[:max_candidates]
+    # Every rule is reported for the candidates shown, whether the preset filters on it or not.
+    verdicts = evaluate_rules(table.take(order), ratio_range=_RATIO_RANGE[rules])
+    if iso_part is not None:
+        verdicts["isotope_pattern"] = isotope_agrees[order]
 
     candidates = []
-    for rank, i in enumerate(order, start=1):
+    for rank, (row, i) in enumerate(zip(range(len(order)), order), start=1):
         formula = table.formula(int(i))
-        passed = tuple(r for r in RULE_NAMES if r in verdicts and bool(verdicts[r][i]))
-        failed = tuple(r for r in RULE_NAMES if r in verdicts and not bool(verdicts[r][i]))
+        passed = tuple(r for r in RULE_NAMES if r in verdicts and bool(verdicts[r][row]))
+        failed = tuple(r for r in RULE_NAMES if r in verdicts and not bool(verdicts[r][row]))
         parts = {"mass": float(mass_part[i])}
         if prior_part is not None:
             parts["prior"] = float(prior_part[i])
@@ -423,7 +425,7 @@ def formula_search(
                 predicted=tuple(float(x) for x in scaled[i]),
                 chi2=float(chi2[i]),
                 dof=dof,
-                agrees=bool(verdicts["isotope_pattern"][i]),
+                agrees=bool(isotope_agrees[i]),
             )
         matches = []
         for k, (mz, species) in enumerate(parsed):

@@ -45,6 +45,7 @@ DEFAULT_ELEMENTS = "C H N O P S"
 _FIRST_GROUP_SIZE = 2_500_000
 _SECOND_GROUP_TARGET = 20_000
 _SECOND_GROUP_CHUNK = 200_000
+_MAX_ROWS = 40_000_000
 
 ElementRanges = Mapping[str, tuple[int, int | None]]
 """Element -> (minimum, maximum) count; maximum ``None``: limited only by the mass."""
@@ -346,6 +347,12 @@ def _groups(bounds, pruning: Pruning, cap: float) -> tuple[_Group, _Group]:
     b_counts = np.zeros((1, 0), dtype=np.int16)
     done: list[int] = []
     for i in second:
+        if b_counts.shape[0] * sizes[i] > _MAX_ROWS:
+            raise ParameterError(
+                "element ranges: the search space is too large "
+                f"(over {_MAX_ROWS:,} partial compositions of {', '.join(symbols[j] for j in second)}); "
+                "narrow the element ranges, e.g. 'C0-200 H0-400 N0-20 O0-80 S0-4'"
+            )
         b_counts = _cross(b_counts, bounds[i][1], bounds[i][2])
         done.append(i)
         rest = [bounds[j] for j in range(len(bounds)) if j not in done]

@@ -26,6 +26,8 @@ __all__ = [
     "RuleReport",
     "check_rules",
     "evaluate_rules",
+    "filter_rules",
+    "CHEMICAL_RULES",
     "element_count_limits",
     "ratio_limits",
     "element_probability_groups",
@@ -144,31 +146,39 @@ def pruning_for(preset: str) -> Pruning:
     )
 
 
-def evaluate_rules(table: FormulaTable, *, ratio_range: str = "common") -> dict[str, np.ndarray]:
-    """Pass (True) / fail of each chemical rule for every row of ``table``.
+CHEMICAL_RULES = RULE_NAMES[:-1]
+"""Rules decided by the formula alone (all but ``isotope_pattern``)."""
 
-    Returns a dict rule name -> boolean array, for every rule of :data:`RULE_NAMES` except
-    ``isotope_pattern``. Formulas without carbon fail the ratio rules (ratios to carbon are
-    undefined).
-    """
-    n = len(table)
-    col = table.column
-    valence = np.array([element(s).valence for s in table.elements], dtype=np.int64)
-    counts = table.counts.astype(np.int64)
-    valence_sum = counts @ valence
-    atoms = counts.sum(axis=1)
-    weight = counts @ (valence - 2)  # 2*RDBE - 2
-    out: dict[str, np.ndarray] = {}
-    out["rdbe"] = (weight % 2 == 0) & (weight >= -2)
-    nominal = counts @ np.array([element(s).nominal_mass for s in table.elements], dtype=np.int64)
-    out["nitrogen_rule"] = (nominal % 2) == (col("N") % 2)
-    present = counts > 0
-    max_valence = np.where(present, valence[None, :], 0).max(axis=1) if n else np.zeros(0, dtype=np.int64)
-    out["lewis_senior"] = (
-        (valence_sum % 2 == 0) & (valence_sum >= 2 * max_valence) & (valence_sum >= 2 * (atoms - 1))
-    )
 
-    ok = np.ones(n, dtype=bool)
+def _valence_vector(table: FormulaTable) -> np.ndarray:
+    return np.array([element(s).valence for s in table.elements], dtype=np.int64)
+
+
+def _rule_rdbe(table: FormulaTable, ratio_range: str) -> np.ndarray:
+    weight = table.counts @ (_valence_vector(table) - 2)  # 2*RDBE - 2
+    return (weight % 2 == 0) & (weight >= -2)
+
+
+def _rule_nitrogen(table: FormulaTable, ratio_range: str) -> np.ndarray:
+    nominal = table.counts @ np.array([element(s).nominal_mass for s in table.elements], dtype=np.int64)
+    return (nominal % 2) == (table.column("N") % 2)
+
+
+def _rule_lewis_senior(table: FormulaTable, ratio_range: str) -> np.ndarray:
+    valence = _valence_vector(table)
+    valence_sum = table.counts @ valence
+    atoms = table.counts.sum(axis=1)
+    if len(table):
+        max_valence = np.where(table.counts > 0, valence[None, :], 0).max(axis=1)
+    else:
+        max_valence = np.zeros(0, dtype=np.int64)
+    # SENIOR: (i) even sum of valences (LEWIS parity), (ii) at least twice the largest
+    # valence, (iii) at least twice the number of atoms minus one.
+    return (valence_sum % 2 == 0) & (valence_sum >= 2 * max_valence) & (valence_sum >= 2 * (atoms - 1))
+
+
+def _rule_element_counts(table: FormulaTable, ratio_range: str) -> np.ndarray:
+    ok = np.ones(len(table), dtype=bool)
     masses = table.masses
     last_bound = 0.0
     for mass_below, limits in element_count_limits():
@@ -177,34 +187,92 @@ def evaluate_rules(table: FormulaTable, *, ratio_range: str = "common") -> dict[
         if not in_bin.any():
             continue
         for symbol, most in limits.items():
-            ok[in_bin] &= col(symbol)[in_bin] <= most
-    out["element_counts"] = ok
+            if symbol in table.elements:
+                ok &= ~in_bin | (table.column(symbol) <= most)
+    return ok
 
-    carbon = col("C").astype(np.float64)
-    has_c = carbon >= 1
-    limits = ratio_limits(ratio_range)
-    lo, hi = limits["H"]
-    h = col("H")
-    out["hc_ratio"] = has_c & (h >= lo * carbon - 1e-9) & (h <= hi * carbon + 1e-9)
-    ok = has_c.copy()
-    for symbol, (lo, hi) in limits.items():
-        if symbol == "H":
+
+def _rule_hc_ratio(table: FormulaTable, ratio_range: str) -> np.ndarray:
+    carbon = table.column("C").astype(np.float64)
+    lo, hi = ratio_limits(ratio_range)["H"]
+    h = table.column("H")
+    return (carbon >= 1) & (h >= lo * carbon - 1e-9) & (h <= hi * carbon + 1e-9)
+
+
+def _rule_heteroatom_ratios(table: FormulaTable, ratio_range: str) -> np.ndarray:
+    carbon = table.column("C").astype(np.float64)
+    ok = carbon >= 1
+    for symbol, (lo, hi) in ratio_limits(ratio_range).items():
+        if symbol == "H" or symbol not in table.elements:
             continue
-        x = col(symbol)
+        x = table.column(symbol)
         ok &= (x >= lo * carbon - 1e-9) & (x <= hi * carbon + 1e-9)
-    out["heteroatom_ratios"] = ok
+    return ok
 
+
+def _rule_element_probability(table: FormulaTable, ratio_range: str) -> np.ndarray:
+    n = len(table)
     ok = np.ones(n, dtype=bool)
     for _group, more_than, group_limits in element_probability_groups():
+        if not all(s in table.elements for s in group_limits):
+            continue  # an absent element is never "more than" anything
         applies = np.ones(n, dtype=bool)
-        for symbol in group_limits:
-            applies &= col(symbol) > more_than
         within = np.ones(n, dtype=bool)
         for symbol, below in group_limits.items():
-            within &= col(symbol) < below
+            x = table.column(symbol)
+            applies &= x > more_than
+            within &= x < below
         ok &= ~applies | within
-    out["element_probability"] = ok
+    return ok
+
+
+_RULES = {
+    "rdbe": _rule_rdbe,
+    "nitrogen_rule": _rule_nitrogen,
+    "lewis_senior": _rule_lewis_senior,
+    "element_counts": _rule_element_counts,
+    "hc_ratio": _rule_hc_ratio,
+    "heteroatom_ratios": _rule_heteroatom_ratios,
+    "element_probability": _rule_element_probability,
+}
+
+
+def evaluate_rules(
+    table: FormulaTable, *, ratio_range: str = "common", rules: tuple[str, ...] = CHEMICAL_RULES
+) -> dict[str, np.ndarray]:
+    """Pass (True) / fail of chemical rules for every row of ``table``.
+
+    Parameters
+    ----------
+    table : FormulaTable
+    ratio_range : {'common', 'extended'}
+        Ranges of the ratio rules (4 and 5).
+    rules : tuple of str
+        Rules to evaluate (default: all but ``isotope_pattern``).
+
+    Returns
+    -------
+    dict
+        Rule name -> boolean array. Formulas without carbon fail the ratio rules (ratios to
+        carbon are undefined).
+    """
+    ratio_limits(ratio_range)
+    out = {}
+    for rule in rules:
+        try:
+            out[rule] = _RULES[rule](table, ratio_range)
+        except KeyError:
+            raise ParameterError(f"rules: unknown rule {rule!r}; known: {', '.join(CHEMICAL_RULES)}") from None
     return out
+
+
+def filter_rules(table: FormulaTable, rules: tuple[str, ...], *, ratio_range: str = "common") -> FormulaTable:
+    """Rows of ``table`` passing every rule of ``rules`` (cheapest first, on shrinking tables)."""
+    for rule in rules:
+        if not len(table):
+            break
+        table = table.take(_RULES[rule](table, ratio_range))
+    return table
 
 
 @dataclass(frozen=True)

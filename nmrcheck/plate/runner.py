@@ -138,7 +138,14 @@ def run_plate(
     out.mkdir(parents=True, exist_ok=True)
     own_executor = executor is None
     pool = executor or _make_executor(workers)
-    run_options: dict[str, Any] = {"screen": options.as_dict(), "workers": workers, "watch": watch, "redo": redo}
+    run_options: dict[str, Any] = {
+        "screen": options.as_dict(),
+        "workers": workers,
+        "watch": watch,
+        "redo": redo,
+        "layout": manifest.layout.name,
+        "wells": [s.well for s in manifest.wells],
+    }
     with ResultsStore(out) as store:
         run_id = store.start_run(manifest=manifest.path, options=run_options, software_version=__version__)
         finished = store.finished()

@@ -45,6 +45,12 @@ class ScreenOptions:
     max_formulas: int = 10
     trace_bins: int = 2048
     """Bins of the display copy of each spectrum kept for the report."""
+    solvent_volume_ul: float = 35.0
+    """Solvent in each tube, uL (the residual solvent signal is the amount reference)."""
+    deuteration_pct: float = 99.8
+    """Atom % D of the solvent lot."""
+    next_experiment: str = "1H-13C HSQC"
+    """Experiment the go/no-go recommendation is for (a name in the quantification thresholds)."""
 
     def __post_init__(self) -> None:
         if not 0 < self.mass_tolerance_ppm <= 100:
@@ -117,111 +123,159 @@ def _processing_record(processed, options: ProcessingOptions) -> dict[str, Any]:
     }
 
 
-def _formula_candidates(spec: WellSpec, options: ScreenOptions, notes: list[str]) -> tuple[list[Any], list[dict[str, Any]]]:
-    """(engine objects, dict records) of the formula candidates: the manifest's, then the HRMS search's."""
+def _candidate_list(spec: WellSpec, options: ScreenOptions, notes: list[str]) -> tuple[list[Any], list[dict[str, Any]]]:
+    """(validation candidates, their records): the manifest's formulas and structures, then the HRMS search's.
+
+    Records and candidates share an index and a ``key`` the checks refer back to. A
+    validation candidate is None when the validation stage is not installed or the entry
+    could not become a candidate (the problem is then in the record).
+    """
     from nmrcheck.chem import formula_search, parse_formula
+
+    try:
+        from nmrcheck.validate import Candidate, candidates_from_strings
+    except ImportError:
+        Candidate = candidates_from_strings = None  # noqa: N806 - the stage is optional
+        notes.append("validation stage not installed: candidates were not checked against the spectrum")
 
     objects: list[Any] = []
     records: list[dict[str, Any]] = []
+
+    def add(record: dict[str, Any], make) -> None:
+        record["key"] = f"c{len(records) + 1}"
+        obj = None
+        if candidates_from_strings is not None:
+            good, bad = make()
+            obj = good[0] if good else None
+            if bad:
+                record["problem"] = bad[0].problem
+        objects.append(obj)
+        records.append(record)
+
     for text in spec.formulas:
         f = parse_formula(text)
-        objects.append(f)
-        records.append({"kind": "formula", "source": "manifest", "formula": f.hill, "neutral_mass": f.monoisotopic_mass})
+        add({"kind": "formula", "source": "manifest", "formula": f.hill, "neutral_mass": f.monoisotopic_mass},
+            lambda t=text: candidates_from_strings(formulas=[t]))
     for name, smiles in spec.structures:
-        records.append({"kind": "structure", "source": "manifest", "name": name, "smiles": smiles})
-    if spec.ms_features:
-        try:
-            search = formula_search(
-                list(spec.ms_features),
-                ppm=options.mass_tolerance_ppm,
-                isotopes=spec.isotopes,
-                elements=options.elements,
-                rules=options.rules,
-                max_candidates=options.max_formulas,
-            )
-        except NmrcheckError as exc:
-            notes.append(f"formula search: {exc}")
-            return objects, records
-        given = {r["formula"] for r in records if r["kind"] == "formula"}
-        for cand in search.candidates:
-            rec = plain(cand)
-            rec.update({"kind": "formula", "source": "hrms"})
-            if rec["formula"] in given:
-                # The manifest's formula is also found from the MS feature: keep one record, with the MS evidence.
-                for r in records:
-                    if r.get("formula") == rec["formula"] and r["source"] == "manifest":
-                        r.update({k: v for k, v in rec.items() if k not in ("source",)})
-                        r["source"] = "manifest+hrms"
-                continue
-            objects.append(cand)
-            records.append(rec)
-        if not search.candidates:
-            notes.append(f"formula search: no formula within {options.mass_tolerance_ppm:g} ppm passes the {options.rules} rules")
+        add({"kind": "structure", "source": "manifest", "name": name, "smiles": smiles},
+            lambda s=smiles, n=name: candidates_from_strings(smiles=[f"{s} {n}"]))
+        if objects[-1] is not None:
+            records[-1]["formula"] = objects[-1].formula.hill
+            records[-1]["neutral_mass"] = objects[-1].formula.monoisotopic_mass
+    if not spec.ms_features:
+        return objects, records
+    try:
+        search = formula_search(
+            list(spec.ms_features),
+            ppm=options.mass_tolerance_ppm,
+            isotopes=spec.isotopes,
+            elements=options.elements,
+            rules=options.rules,
+            max_candidates=options.max_formulas,
+        )
+    except NmrcheckError as exc:
+        notes.append(f"formula search: {exc}")
+        return objects, records
+    named = {r["formula"]: r for r in records if r["kind"] == "formula"}
+    for cand in search.candidates:
+        rec = plain(cand)
+        rec["kind"] = "formula"
+        if rec["formula"] in named:
+            # The chemist's formula is also what the MS feature gives: one record, with the MS evidence.
+            target = named[rec["formula"]]
+            target.update({k: v for k, v in rec.items() if k not in ("kind",)})
+            target["source"] = "manifest+hrms"
+            continue
+        rec["source"] = "hrms"
+        add(rec, lambda c=cand: ((Candidate(c.formula.hill, c.formula, None, f"formula engine #{c.rank}"),), ()))
+    if not search.candidates:
+        notes.append(f"formula search: no formula within {options.mass_tolerance_ppm:g} ppm passes the {options.rules} rules")
     return objects, records
 
 
-def _validate(processed, spec: WellSpec, formula_objects: list[Any], notes: list[str]) -> list[dict[str, Any]] | None:
-    """Checks from the validation stage, or None (with a note) when it is not installed."""
+def _check_record(key: str, verdict) -> dict[str, Any]:
+    return {
+        "key": key,
+        "label": verdict.candidate.label,
+        "formula": verdict.candidate.formula.hill,
+        "verdict": verdict.verdict,
+        "score": round(float(verdict.score), 4),
+        "rank": int(verdict.rank),
+        "reasons": list(verdict.reasons),
+        "checks": [
+            {"name": c.name, "status": c.status, "observed": c.observed, "expected": c.expected, "explanation": c.explanation}
+            for c in verdict.checks
+        ],
+    }
+
+
+def _validate(processed, spec: WellSpec, options: ScreenOptions, objects: list[Any], records: list[dict[str, Any]], notes: list[str]) -> list[dict[str, Any]] | None:
+    """One check record per candidate from the validation stage; None when the stage is not installed."""
     try:
-        from nmrcheck import validate
+        from nmrcheck.validate import MsFeature, check_candidates, evidence_from
     except ImportError:
-        notes.append("validation stage not installed: candidates were not checked against the spectrum")
         return None
-    check = getattr(validate, "check_candidates", None)
-    if check is None:
-        notes.append("validation stage has no check_candidates(): candidates were not checked")
-        return None
-    structures = list(spec.structures)
-    candidates: list[Any] = list(formula_objects)
-    if structures:
-        candidates += [smiles for _, smiles in structures]
-    if not candidates:
+    ms = None
+    if spec.ms_features:
+        try:
+            ms = MsFeature(ions=tuple(spec.ms_features), ppm=options.mass_tolerance_ppm, isotopes=spec.isotopes)
+        except NmrcheckError as exc:
+            notes.append(f"MS feature not used in the checks: {exc}")
+    evidence = evidence_from(processed, ms)
+    pairs = [(rec["key"], obj) for rec, obj in zip(records, objects) if obj is not None]
+    if not pairs:
         return []
-    feature = list(spec.ms_features) or None
-    results = check(processed, candidates, ms_feature=feature)
-    return [plain(r) for r in results]
+    by_id = {id(obj): key for key, obj in pairs}
+    verdicts = check_candidates([obj for _, obj in pairs], evidence)
+    return [_check_record(by_id[id(v.candidate)], v) for v in verdicts]
 
 
-def _verdict_of(checks: list[dict[str, Any]] | None, candidates: list[dict[str, Any]]) -> str:
+def _verdict_of(checks: list[dict[str, Any]] | None, records: list[dict[str, Any]]) -> str:
+    """The well's call: the best verdict among the manifest's structures, else its formulas, else the HRMS formulas.
+
+    A named structure is the most specific claim; a formula that fits while the structure
+    does not must not hide the contradiction.
+    """
     if not checks:
         return "undecided"
-    verdicts = [str(c.get("verdict", "undecided")) for c in checks]
-    manifest_keys = {c.get("formula") or c.get("smiles") for c in candidates if str(c.get("source", "")).startswith("manifest")}
-    if manifest_keys:
-        # The chemist named candidates: the call is about them, not about every formula the mass allows.
-        named = [str(c.get("verdict", "undecided")) for c in checks if _check_key(c) in manifest_keys]
-        if named:
-            verdicts = named
+    kinds = {r["key"]: (r["kind"], str(r.get("source", "")).startswith("manifest")) for r in records}
+    by_claim = (
+        [c["verdict"] for c in checks if kinds.get(c["key"]) == ("structure", True)],
+        [c["verdict"] for c in checks if kinds.get(c["key"]) == ("formula", True)],
+        [c["verdict"] for c in checks],
+    )
+    verdicts = next(v for v in by_claim if v) if any(by_claim) else []
     for v in _VERDICT_ORDER:
         if v in verdicts:
             return v
     return "undecided"
 
 
-def _check_key(check: dict[str, Any]) -> str | None:
-    cand = check.get("candidate")
-    if isinstance(cand, dict):
-        return cand.get("formula") or cand.get("smiles")
-    if isinstance(cand, str):
-        return cand
-    return check.get("formula") or check.get("smiles")
-
-
-def _quantify(processed, spec: WellSpec, candidates: list[dict[str, Any]], notes: list[str]) -> tuple[dict[str, Any] | None, str | None]:
+def _quantify(processed, options: ScreenOptions, checks: list[dict[str, Any]] | None, records: list[dict[str, Any]], notes: list[str]) -> tuple[dict[str, Any] | None, str | None]:
+    """Amount against the residual solvent signal and the go/no-go for the next experiment."""
     try:
-        from nmrcheck import quant
+        from nmrcheck.quant import SolventReference, amount_for, quantify, recommend
     except ImportError:
         notes.append("quantification stage not installed: no amount or go/no-go recommendation")
         return None, None
-    estimate = getattr(quant, "estimate_amount", None)
-    if estimate is None:
-        notes.append("quantification stage has no estimate_amount(): no amount estimated")
+    solvent = processed.spectrum.solvent
+    if not solvent:
+        notes.append("no amount: the solvent is unknown, so its residual signal cannot serve as the reference")
         return None, None
-    masses = [c["neutral_mass"] for c in candidates if c.get("neutral_mass")]
-    result = estimate(processed, molar_mass=masses[0] if masses else None)
-    rec = plain(result)
-    recommendation = rec.get("recommendation") if isinstance(rec, dict) else None
-    return rec, recommendation
+    method = SolventReference(solvent=solvent, deuteration_pct=options.deuteration_pct, volume_ul=options.solvent_volume_ul)
+    amount = quantify(processed, method=method)
+    out: dict[str, Any] = {"per_proton": plain(amount)}
+    target = None
+    if checks:
+        named = {r["key"] for r in records if str(r.get("source", "")).startswith("manifest")}
+        ordered = sorted(checks, key=lambda c: (c["key"] not in named, _VERDICT_ORDER.index(c["verdict"]) if c["verdict"] in _VERDICT_ORDER else 9, c["rank"]))
+        target = ordered[0]["formula"]
+    per_candidate = amount_for(amount, target) if target else amount
+    if target:
+        out["candidate"] = plain(per_candidate)
+    rec = recommend(per_candidate, float(processed.snr), experiment=options.next_experiment, acquisition=processed.spectrum.acquisition)
+    out["recommendation"] = plain(rec)
+    return out, f"{rec.decision} ({rec.experiment})"
 
 
 def screen_well(spec: WellSpec, directory: str, options: ScreenOptions) -> WellResult:
@@ -284,14 +338,22 @@ def screen_well(spec: WellSpec, directory: str, options: ScreenOptions) -> WellR
             count=plain(processed.count),
             trace=trace,
         )
-        formula_objects, candidates = _formula_candidates(spec, options, notes)
+        objects, candidates = _candidate_list(spec, options, notes)
         clock.lap("formulas")
         if processed.count is None:
             notes.append("no analyte signal above the noise threshold: the well looks empty")
             return WellResult(status="empty", verdict="empty", candidates=tuple(candidates), timings=clock.timings, notes=tuple(notes), **common, **base)
-        checks = _validate(processed, spec, formula_objects, notes)
+        try:
+            checks = _validate(processed, spec, options, objects, candidates, notes)
+        except NmrcheckError as exc:
+            checks = None
+            notes.append(f"candidates not checked: {exc}")
         clock.lap("validate")
-        amount, recommendation = _quantify(processed, spec, candidates, notes)
+        try:
+            amount, recommendation = _quantify(processed, options, checks, candidates, notes)
+        except NmrcheckError as exc:
+            amount, recommendation = None, None
+            notes.append(f"no amount estimated: {exc}")
         clock.lap("quantify")
         return WellResult(
             status="done",

@@ -278,7 +278,8 @@ def _nitrogen(view: MolView, attach: int, r: int) -> Group:
     if view.multiple_partners(r, 2.0) or view.multiple_partners(r, 3.0):
         return Group("N=X", "N=X", r, conjugated=True)
     for j in others:
-        acyl = view.is_carbonyl_carbon(j) or (view.z[j] == 6 and any(view.z[k] == 16 for k in view.multiple_partners(j, 2.0)))
+        thioacyl = view.z[j] == 6 and any(view.z[k] == 16 for k in view.multiple_partners(j, 2.0))
+        acyl = view.is_carbonyl_carbon(j) or thioacyl
         sulfonyl = view.z[j] == 16 and len([k for k in view.multiple_partners(j, 2.0) if view.z[k] == 8]) >= 2
         if acyl or sulfonyl:
             fine = "NHC(=O)R" if view.h_count[r] >= 1 else "NRC(=O)R"
@@ -354,12 +355,11 @@ def exchange_class(view: MolView, i: int) -> str | None:
 
 def _ortho_carbonyl(view: MolView, x: int, oxygen: int) -> bool:
     """True when the OH on sp2 carbon ``x`` can form a six-membered hydrogen-bonded ring to a C=O."""
+    # H-O-C(x)=C(y)-C(w)=O: the six-membered chelate of salicyl carbonyls, 5-OH flavones, beta-diketone enols
     for y in view.nbrs[x]:
-        if y == oxygen:
+        if y == oxygen or view.order(x, y) == 1.0:
             continue
-        if view.is_carbonyl_carbon(y):
-            return True
         for w in view.nbrs[y]:
-            if w != x and view.is_carbonyl_carbon(w) and view.order(y, w) != 2.0:
+            if w != x and view.is_carbonyl_carbon(w):
                 return True
     return False

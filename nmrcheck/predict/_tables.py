@@ -111,6 +111,8 @@ class HeteroaromaticRow:
     pattern: object
     mapped_index: int
     """Index, within the pattern, of the atom mapped ``:1``."""
+    ring_indices: tuple[int, ...]
+    """Indices, within the pattern, of its aromatic atoms (the ring that must be truly aromatic)."""
 
 
 @lru_cache(maxsize=None)
@@ -126,11 +128,9 @@ def heteroaromatic_rows() -> tuple[HeteroaromaticRow, ...]:
         mapped = [a.GetIdx() for a in pattern.GetAtoms() if a.GetAtomMapNum() == 1]
         if len(mapped) != 1:
             raise TableError(f"heteroaromatic_shifts.csv: SMARTS {r['smarts']!r} must map exactly one atom as :1")
-        rows.append(
-            HeteroaromaticRow(
-                r["ring"], r["position"], r["smarts"], _number("heteroaromatic_shifts", r, "ppm"), pattern, mapped[0]
-            )
-        )
+        ring = tuple(a.GetIdx() for a in pattern.GetAtoms() if a.GetIsAromatic())
+        ppm = _number("heteroaromatic_shifts", r, "ppm")
+        rows.append(HeteroaromaticRow(r["ring"], r["position"], r["smarts"], ppm, pattern, mapped[0], ring))
     return tuple(rows)
 
 
@@ -149,7 +149,8 @@ def class_tolerance(shift_class: str) -> float:
 
 @lru_cache(maxsize=None)
 def _widening() -> dict[str, float]:
-    return {r["condition"]: _number("shift_tolerance_widening", r, "add_ppm") for r in load_table("shift_tolerance_widening")}
+    rows = load_table("shift_tolerance_widening")
+    return {r["condition"]: _number("shift_tolerance_widening", r, "add_ppm") for r in rows}
 
 
 def tolerance_widening(condition: str) -> float:

@@ -106,3 +106,34 @@ NATURAL_PRODUCTS: tuple[tuple[str, str, str, str], ...] = (
     ("gliotoxin", "sulfur", "CN1C(=O)C23CC4=CC=CC(O)C4N2C(=O)C1(CO)SS3", "C13H14N2O4S2"),
     ("sinigrin", "sulfur glycoside", "C=CCC(=NOS(=O)(=O)O)SC1OC(CO)C(O)C(O)C1O", "C10H17NO9S2"),
 )
+
+
+def simulated_feature(formula, ions, rng, *, ppm_error=(1.0, 3.0), isotope_noise=(0.02, 0.05), min_relative=1.0):
+    """An MS feature of ``formula`` as an instrument would report it.
+
+    Each ion's m/z gets a relative error of random sign and magnitude uniform in
+    ``ppm_error`` (ppm); the isotope intensities of the first ion (M+0 .. the last peak of at
+    least ``min_relative`` % of M+0, at most six) get Gaussian noise whose relative standard
+    deviation is drawn uniformly from ``isotope_noise``.
+
+    Returns
+    -------
+    features : list of (float, str)
+    intensities : list of float
+    """
+    import numpy as np
+
+    from nmrcheck.chem.adducts import ion_mz
+    from nmrcheck.chem.isotopes import isotope_pattern
+
+    mass = formula.monoisotopic_mass
+    features = []
+    for ion in ions:
+        err = rng.uniform(*ppm_error) * rng.choice([-1.0, 1.0])
+        features.append((ion_mz(mass, ion) * (1.0 + err * 1e-6), ion))
+    pattern = np.array(isotope_pattern(formula, ion=ions[0]).abundances[:6])
+    relative = 100.0 * pattern / pattern[0]
+    keep = max(2, int(np.count_nonzero(relative >= min_relative)))
+    noise = rng.uniform(*isotope_noise)
+    observed = relative[:keep] * (1.0 + rng.normal(0.0, noise, keep))
+    return features, [float(x) for x in observed]

@@ -1,0 +1,34 @@
+"""Quantification: amount of compound in the tube against a standard, the solvent or an external calibration, and go/no-go."""
+
+from nmrcheck.quant.amount import Amount, CandidateAmount, amount_for, quantify
+from nmrcheck.quant.pulcon import PulconFactors, flip_angle_deg, pulcon_factor
+from nmrcheck.quant.recommend import Recommendation, Threshold, load_thresholds, recommend, scans_for_snr
+from nmrcheck.quant.references import (
+    ExternalCalibration,
+    SolventReference,
+    StandardReference,
+    known_standards,
+    solvent_info,
+    standard_info,
+)
+
+__all__ = [
+    "Amount",
+    "CandidateAmount",
+    "ExternalCalibration",
+    "PulconFactors",
+    "Recommendation",
+    "SolventReference",
+    "StandardReference",
+    "Threshold",
+    "amount_for",
+    "flip_angle_deg",
+    "known_standards",
+    "load_thresholds",
+    "pulcon_factor",
+    "quantify",
+    "recommend",
+    "scans_for_snr",
+    "solvent_info",
+    "standard_info",
+]

@@ -1,0 +1,106 @@
+"""CSV and JSON exports of a plate's results: the same records the HTML report shows."""
+
+from __future__ import annotations
+
+import csv
+import json
+import os
+from pathlib import Path
+from typing import Any, Iterable, Mapping
+
+from nmrcheck.plate.results import WellResult
+
+__all__ = ["CSV_COLUMNS", "well_row", "write_csv", "write_json"]
+
+CSV_COLUMNS = (
+    "well",
+    "verdict",
+    "status",
+    "total_h",
+    "total_h_low",
+    "total_h_high",
+    "integer_h",
+    "snr",
+    "solvent",
+    "reference",
+    "ms_feature",
+    "best_formula",
+    "best_formula_error_ppm",
+    "named_candidates",
+    "amount",
+    "recommendation",
+    "error",
+    "notes",
+    "spectrum_path",
+    "options_hash",
+    "software_version",
+    "seconds",
+)
+
+
+def _fmt(v: Any, digits: int = 2) -> str:
+    if v is None:
+        return ""
+    if isinstance(v, float):
+        return f"{v:.{digits}f}"
+    return str(v)
+
+
+def well_row(result: WellResult) -> dict[str, str]:
+    """One flat row of text cells for a well (CSV and the report's table)."""
+    count = result.count or {}
+    proc = result.processing or {}
+    hrms = [c for c in result.candidates if c.get("kind") == "formula" and "hrms" in str(c.get("source", ""))]
+    best = min(hrms, key=lambda c: c.get("rank") or 1e9) if hrms else None
+    named = [c.get("formula") or c.get("name") or c.get("smiles") for c in result.candidates if str(c.get("source", "")).startswith("manifest")]
+    feature = result.ms_feature or {}
+    amount = result.amount or {}
+    amount_text = ""
+    if amount:
+        for key in ("amount_ug", "amount_nmol", "amount", "concentration_mm"):
+            if amount.get(key) is not None:
+                amount_text = f"{_fmt(amount[key])} {key.split('_')[-1] if '_' in key else ''}".strip()
+                break
+    return {
+        "well": result.well,
+        "verdict": result.verdict,
+        "status": result.status,
+        "total_h": _fmt(count.get("total_h"), 1),
+        "total_h_low": _fmt(count.get("total_h_low"), 1),
+        "total_h_high": _fmt(count.get("total_h_high"), 1),
+        "integer_h": _fmt(count.get("integer_h")),
+        "snr": _fmt(proc.get("snr"), 0),
+        "solvent": _fmt(proc.get("solvent")),
+        "reference": _fmt((proc.get("reference") or {}).get("name")),
+        "ms_feature": "; ".join(f"{mz:.4f} {ion}" for mz, ion in feature.get("ions", [])),
+        "best_formula": _fmt(best.get("formula")) if best else "",
+        "best_formula_error_ppm": _fmt(best.get("error_ppm")) if best else "",
+        "named_candidates": "; ".join(str(n) for n in named if n),
+        "amount": amount_text,
+        "recommendation": _fmt(result.recommendation),
+        "error": (result.error or "").splitlines()[0] if result.error else "",
+        "notes": str((result.spec or {}).get("notes", "")),
+        "spectrum_path": _fmt(result.spectrum_path),
+        "options_hash": result.options_hash,
+        "software_version": result.software_version,
+        "seconds": _fmt(sum(result.timings.values()), 2),
+    }
+
+
+def write_csv(results: Iterable[WellResult], path: str | os.PathLike) -> Path:
+    """One row per well, columns :data:`CSV_COLUMNS`."""
+    p = Path(path)
+    with open(p, "w", newline="", encoding="utf-8") as fh:
+        writer = csv.DictWriter(fh, fieldnames=list(CSV_COLUMNS))
+        writer.writeheader()
+        for r in results:
+            writer.writerow(well_row(r))
+    return p
+
+
+def write_json(results: Iterable[WellResult], path: str | os.PathLike, *, run: Mapping[str, Any] | None = None) -> Path:
+    """Every field of every well's result (without the display trace), with the run's description."""
+    p = Path(path)
+    doc = {"run": dict(run or {}), "wells": [r.as_dict() for r in results]}
+    p.write_text(json.dumps(doc, indent=1, sort_keys=True, default=str), encoding="utf-8")
+    return p

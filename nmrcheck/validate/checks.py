@@ -1,0 +1,410 @@
+"""The individual checks of a candidate against the evidence; each is a pure function returning a CheckResult.
+
+The proton count is re-derived for every candidate: the spectrum's integrals are
+anchored to each H number the candidate can show in this solvent, and the
+hypothesis holds only if the integrals then come out as whole numbers of protons
+summing to that number. The processor's own (self-found) unit is reported beside
+it but not trusted, since on real spectra it can be off by a whole factor.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from functools import lru_cache
+
+import numpy as np
+
+from nmrcheck.data import load_table
+from nmrcheck.validate import _hydrogens as hyd
+from nmrcheck.validate.records import Candidate, CheckResult, Evidence
+
+__all__ = [
+    "MIN_SNR",
+    "CountFit",
+    "fit_count",
+    "expected_visible",
+    "check_mass",
+    "check_isotopes",
+    "check_proton_count",
+    "check_unsaturation",
+    "check_shift_regions",
+    "check_signal_count",
+    "all_checks",
+]
+
+#: Below this SNR integrals are too noisy to count protons (common practice for routine 1H work).
+MIN_SNR = 10.0
+#: A region holding less than half a proton at the candidate's unit cannot be one of its signals: impurity or baseline.
+MINOR_H = 0.5
+#: Allowed deviation of a region from its whole number of H: TOL_FLOOR + TOL_PER_H * n. Routine
+#: (not fully relaxed) spectra integrate to about 10 % per signal plus a baseline floor (common practice).
+TOL_FLOOR = 0.2
+TOL_PER_H = 0.1
+#: Largest share of the total integral that small unassigned regions may hold before a warning.
+MINOR_SHARE_WARN = 0.15
+#: Earth-mover distance per H between predicted and observed shift distributions, ppm: pass / warn
+#: limits. Additive-increment predictions miss by 0.2-0.3 ppm on average (from memory), so twice that passes.
+EMD_PASS_PPM = 0.5
+EMD_WARN_PPM = 0.9
+
+WEIGHTS = {"mass": 3.0, "isotopes": 1.5, "proton count": 3.0, "unsaturation": 2.0, "shift regions": 2.0, "signal count": 0.5}
+
+
+def _na(name: str, why: str) -> CheckResult:
+    return CheckResult(name, "not-applicable", "-", "-", why, WEIGHTS[name])
+
+
+def nmr_usable(evidence: Evidence) -> str | None:
+    """Why the spectrum cannot be used for counting, or None when it can."""
+    if not evidence.regions:
+        return "no analyte signal above the noise threshold"
+    if evidence.snr < MIN_SNR:
+        return f"SNR {evidence.snr:.1f} is below {MIN_SNR:g}, too low to count protons"
+    return None
+
+
+# ----------------------------------------------------------------------------- mass
+
+
+def check_mass(candidate: Candidate, evidence: Evidence) -> CheckResult:
+    """Monoisotopic mass of the candidate against the MS feature's neutral mass (ppm)."""
+    ms = evidence.ms
+    if ms is None:
+        return _na("mass", "no MS feature given, so the mass cannot be checked")
+    calc = candidate.formula.monoisotopic_mass
+    err = (ms.neutral_mass - calc) / calc * 1e6
+    status = "pass" if abs(err) <= ms.ppm else "warn" if abs(err) <= 2 * ms.ppm else "fail"
+    verb = {"pass": "within", "warn": "outside but within twice", "fail": "far outside"}[status]
+    return CheckResult(
+        "mass",
+        status,
+        f"M = {ms.neutral_mass:.5f} u",
+        f"{calc:.5f} u +/- {ms.ppm:g} ppm",
+        f"monoisotopic mass {calc:.5f} u differs from the MS feature by {err:+.1f} ppm, {verb} the {ms.ppm:g} ppm tolerance",
+        WEIGHTS["mass"],
+        {"error_ppm": err},
+    )
+
+
+def check_isotopes(candidate: Candidate, evidence: Evidence) -> CheckResult:
+    """Observed isotope intensities of the first ion against the candidate's pattern (chi-squared)."""
+    ms = evidence.ms
+    if ms is None or not ms.isotopes:
+        return _na("isotopes", "no isotope intensities given")
+    from nmrcheck.chem.isotopes import agreement_limit, fit_isotopes, isotope_pattern
+
+    k = len(ms.isotopes)
+    pattern = isotope_pattern(candidate.formula, ion=ms.ions[0][1], max_peaks=max(k, 2), min_abundance=0.0)
+    pred = list(pattern.relative())[:k] + [0.0] * max(0, k - len(pattern.abundances))
+    chi2, scaled, dof = fit_isotopes(ms.isotopes, np.asarray(pred))
+    limit = agreement_limit(dof)
+    status = "pass" if chi2[0] <= limit else "fail"
+    shown = ", ".join(f"{v:.1f}" for v in scaled[0])
+    return CheckResult(
+        "isotopes",
+        status,
+        ", ".join(f"{v:g}" for v in ms.isotopes),
+        shown,
+        f"isotope pattern chi-squared {chi2[0]:.1f} against a limit of {limit:.1f} ({dof} degrees of freedom)",
+        WEIGHTS["isotopes"],
+    )
+
+
+# ----------------------------------------------------------------------------- proton count
+
+
+@dataclass(frozen=True)
+class CountFit:
+    """The integrals anchored to ``n`` visible protons."""
+
+    n: int
+    unit: float
+    h: tuple[float, ...]
+    """Per counted region (same order as the evidence), H at this unit."""
+    whole: tuple[int, ...]
+    """Nearest whole number of H per region (0 for minor regions)."""
+    worst_z: float
+    """Largest |h - whole| / tolerance over the major regions."""
+    worst_region: int
+    rms_z: float
+    minor_share: float
+
+    @property
+    def integer_sum(self) -> int:
+        return int(sum(self.whole))
+
+    @property
+    def fits(self) -> bool:
+        return self.worst_z <= 1.0 and self.integer_sum == self.n
+
+    @property
+    def marginal(self) -> bool:
+        return self.worst_z <= 1.6 and self.integer_sum == self.n
+
+    @property
+    def badness(self) -> float:
+        return self.rms_z + 0.5 * self.worst_z + abs(self.integer_sum - self.n)
+
+
+def fit_count(integrals, n: int) -> CountFit:
+    """Anchor region ``integrals`` to ``n`` protons and measure how far they are from whole numbers."""
+    arr = np.asarray(integrals, float)
+    total = arr.sum()
+    unit = total / n
+    major = arr / unit >= MINOR_H
+    # Small impurity or baseline regions would dilute the unit; anchor on the signals that hold protons.
+    if major.any():
+        unit = arr[major].sum() / n
+        major = arr / unit >= MINOR_H
+    h = arr / unit
+    whole = np.where(major, np.maximum(1, np.round(h)), 0).astype(int)
+    tol = TOL_FLOOR + TOL_PER_H * np.maximum(whole, 1)
+    z = np.where(major, np.abs(h - whole) / tol, 0.0)
+    worst = int(np.argmax(z)) if z.size else 0
+    rms = float(np.sqrt(np.sum(arr[major] * z[major] ** 2) / arr[major].sum())) if major.any() else 9.9
+    return CountFit(n, float(unit), tuple(map(float, h)), tuple(map(int, whole)), float(z.max()) if z.size else 9.9, worst, rms, float(arr[~major].sum() / total))
+
+
+def _hidden_under_flagged(candidate: Candidate, evidence: Evidence) -> int:
+    """Carbon-bound H a structure predicts inside solvent/water/standard regions (they are not counted)."""
+    if candidate.mol is None or not evidence.flagged:
+        return 0
+    n = 0
+    for g in hyd.predict_groups(candidate.mol):
+        if g.exchangeable:
+            continue
+        for start, end, _ in evidence.flagged:
+            if end - 0.15 <= g.ppm <= start + 0.15:
+                n += g.n_h
+                break
+    return n
+
+
+def expected_visible(candidate: Candidate, evidence: Evidence) -> tuple[int, int, str]:
+    """(least, most) H the candidate should show in this spectrum, and a phrase saying why."""
+    solvent = evidence.solvent or "unknown"
+    if candidate.mol is not None:
+        lo, hi, ch, xh = hyd.visible_h_range(candidate.mol, evidence.solvent)
+        hidden = _hidden_under_flagged(candidate, evidence)
+        why = f"{ch} carbon-bound H"
+        if xh:
+            why += f" + {lo - ch}-{hi - ch} of {xh} exchangeable in {solvent}" if hi > lo else f" + {hi - ch} of {xh} exchangeable in {solvent}"
+        if hidden:
+            why += f"; up to {hidden} may hide under the solvent/water signal"
+        return max(1, lo - hidden), hi, why
+    lo, hi, bound = hyd.formula_visible_h_range(candidate.formula)
+    why = f"{hi} H in the formula, of which up to {bound} could be exchangeable (from its heteroatoms)"
+    return max(1, lo), hi, why
+
+
+def _fmt_range(lo: float, hi: float, digits: int = 0) -> str:
+    return f"{lo:.{digits}f}" if lo == hi else f"{lo:.{digits}f}-{hi:.{digits}f}"
+
+
+def best_fit(candidate: Candidate, evidence: Evidence) -> CountFit | None:
+    """The anchored count within the candidate's visible range that fits the integrals best."""
+    if nmr_usable(evidence):
+        return None
+    lo, hi, _ = expected_visible(candidate, evidence)
+    integrals = [r.integral for r in evidence.regions]
+    fits = [fit_count(integrals, n) for n in range(lo, hi + 1)]
+    return min(fits, key=lambda f: (not f.fits, f.badness))
+
+
+def check_proton_count(candidate: Candidate, evidence: Evidence) -> CheckResult:
+    """Visible H the candidate should show against the integrals anchored to that number."""
+    why = nmr_usable(evidence)
+    if why:
+        return _na("proton count", why)
+    lo, hi, phrase = expected_visible(candidate, evidence)
+    fit = best_fit(candidate, evidence)
+    if fit is None:  # pragma: no cover - nmr_usable above already said why
+        return _na("proton count", "no count")
+    reg = evidence.regions[fit.worst_region]
+    selfc = ""
+    if evidence.total_h is not None:
+        selfc = f"; the spectrum's own count is {evidence.total_h:.1f} H (range {evidence.total_h_low:.1f}-{evidence.total_h_high:.1f})"
+    observed = f"anchored to {fit.n} H the signals hold {fit.integer_sum} whole H (worst: {fit.h[fit.worst_region]:.2f} H at {reg.peak_ppm:.2f} ppm){selfc}"
+    expected = f"{_fmt_range(lo, hi)} visible H ({phrase})"
+    worst_txt = f"the {reg.peak_ppm:.2f} ppm signal comes out as {fit.h[fit.worst_region]:.2f} H"
+    if fit.fits:
+        status = "pass"
+        text = f"expects {_fmt_range(lo, hi)} visible H; anchored to {fit.n} H every signal is a whole number of protons (largest deviation: {worst_txt})"
+    elif fit.marginal:
+        status = "warn"
+        text = f"expects {_fmt_range(lo, hi)} visible H; anchored to {fit.n} H the signals only roughly fit whole numbers ({worst_txt}, {fit.integer_sum} whole H)"
+    else:
+        status = "fail"
+        text = f"expects {_fmt_range(lo, hi)} visible H, but no such count makes the integrals whole numbers: at {fit.n} H {worst_txt} and the signals add to {fit.integer_sum} whole H"
+    if status == "pass" and fit.minor_share > MINOR_SHARE_WARN:
+        status = "warn"
+        text += f"; {100 * fit.minor_share:.0f} % of the integral sits in small regions (impurity or baseline)"
+    return CheckResult(
+        "proton count", status, observed, expected, text, WEIGHTS["proton count"],
+        {"fit_n": fit.n, "unit": fit.unit, "h": fit.h, "whole": fit.whole, "low": lo, "high": hi},
+    )
+
+
+# ----------------------------------------------------------------------------- unsaturation
+
+
+@lru_cache(maxsize=None)
+def _unsaturation_rules() -> dict[str, tuple[float, float, float, int, str]]:
+    return {r["rule"]: (float(r["low_ppm"]), float(r["high_ppm"]), float(r["min_h"]), int(r["rdbe"]), r["source"]) for r in load_table("unsaturation_signals")}
+
+
+def _exchangeable_allowances(candidate: Candidate, evidence: Evidence) -> tuple[int, int]:
+    """(NH that could sit among aromatic signals, all exchangeable H that could be visible)."""
+    if candidate.mol is not None:
+        lo, hi, ch, xh = hyd.visible_h_range(candidate.mol, evidence.solvent)
+        groups = hyd.exchangeable_groups(candidate.mol)
+        nh = groups.get("amide", 0) + groups.get("amine", 0) if hi > ch else 0
+        return nh, hi - ch
+    f = candidate.formula
+    _, _, bound = hyd.formula_visible_h_range(f)
+    return min(bound, f.count("N")), bound
+
+
+def required_rdbe(candidate: Candidate, evidence: Evidence, fit: CountFit) -> tuple[int, list[str]]:
+    """Least ring-plus-double-bond count the anchored signals demand, and the rules that set it."""
+    rules = _unsaturation_rules()
+    nh_allow, x_allow = _exchangeable_allowances(candidate, evidence)
+
+    def h_in(rule: str, exclude: tuple[float, float] | None = None) -> float:
+        low, high = rules[rule][:2]
+        s = 0.0
+        for r, h in zip(evidence.regions, fit.h):
+            if low <= r.peak_ppm <= high and not (exclude and exclude[0] <= r.peak_ppm <= exclude[1]):
+                s += h
+        return s
+
+    reasons = []
+    need = 0
+    ald_lo, ald_hi = rules["aldehyde"][:2]
+    arom = h_in("aromatic4") - nh_allow
+    if arom >= rules["aromatic4"][2]:
+        need = rules["aromatic4"][3]
+        reasons.append(f"{arom:.1f} H at 6.5-8.8 ppm mean an aromatic ring ({need})")
+        vinyl = h_in("vinyl_extra") - x_allow
+        if vinyl >= rules["vinyl_extra"][2]:
+            need += rules["vinyl_extra"][3]
+            reasons.append(f"{vinyl:.1f} olefinic H at 5.5-6.5 ppm add a C=C")
+    elif h_in("sp2", (ald_lo, ald_hi)) >= rules["sp2"][2]:
+        need = rules["sp2"][3]
+        reasons.append("signals above 6.5 ppm need an sp2 system (1)")
+    ald = h_in("aldehyde") - x_allow
+    if ald >= rules["aldehyde"][2]:
+        need += rules["aldehyde"][3]
+        reasons.append(f"{ald:.1f} H at 9.3-10.3 ppm mean a formyl C=O")
+    return need, reasons
+
+
+def check_unsaturation(candidate: Candidate, evidence: Evidence) -> CheckResult:
+    """The candidate's ring-plus-double-bond count against the minimum its anchored signals demand."""
+    r = candidate.formula.rdbe
+    if r < 0 or abs(r - round(r)) > 1e-9:
+        return CheckResult("unsaturation", "fail", "-", f"RDBE {r:g}", f"RDBE {r:g} is not that of a closed-shell neutral molecule", WEIGHTS["unsaturation"])
+    fit = best_fit(candidate, evidence)
+    if fit is None:
+        return _na("unsaturation", nmr_usable(evidence) or "no count")
+    need, why = required_rdbe(candidate, evidence, fit)
+    status = "pass" if r >= need else "fail"
+    because = "; ".join(why) if why else "no aromatic, olefinic or formyl signal sets a minimum"
+    text = (
+        f"RDBE {r:.0f} meets the minimum of {need} the spectrum demands ({because})"
+        if status == "pass"
+        else f"RDBE {r:.0f} is below the minimum of {need} the spectrum demands ({because})"
+    )
+    return CheckResult("unsaturation", status, f"at least {need}", f"RDBE {r:.0f}", text, WEIGHTS["unsaturation"], {"required": need})
+
+
+# ----------------------------------------------------------------------------- shifts
+
+
+@lru_cache(maxsize=None)
+def shift_classes() -> tuple[tuple[str, float, float], ...]:
+    return tuple((r["region"], float(r["low_ppm"]), float(r["high_ppm"])) for r in load_table("validate_shift_classes"))
+
+
+def _class_of(ppm: float) -> str:
+    for name, low, high in shift_classes():
+        if low <= ppm < high:
+            return name
+    return shift_classes()[0][0] if ppm < shift_classes()[0][1] else shift_classes()[-1][0]
+
+
+def visible_groups(candidate: Candidate, evidence: Evidence):
+    """Predicted H groups the candidate should show here (exchangeable ones only where they are surely seen)."""
+    vis = hyd._visibility(evidence.solvent)
+    out = []
+    for g in hyd.predict_groups(candidate.mol):
+        if g.exchangeable:
+            lo, _ = vis.get(g.kind, vis.get("any", vis.get("other", (0.0, 1.0))))
+            if lo < 1:
+                continue
+        out.append(g)
+    return tuple(out)
+
+
+def check_shift_regions(candidate: Candidate, evidence: Evidence) -> CheckResult:
+    """Predicted shift distribution of a structure against the observed integrals (counts per region, EMD per H)."""
+    if candidate.mol is None:
+        return _na("shift regions", "a bare formula predicts no shifts")
+    fit = best_fit(candidate, evidence)
+    if fit is None:
+        return _na("shift regions", nmr_usable(evidence) or "no count")
+    from scipy.stats import wasserstein_distance
+
+    groups = visible_groups(candidate, evidence)
+    if not groups:
+        return _na("shift regions", "no hydrogens expected to be visible")
+    obs = [(r.peak_ppm, h) for r, h, w in zip(evidence.regions, fit.h, fit.whole) if w > 0]
+    if not obs:
+        return _na("shift regions", "no counted signal")
+    emd = float(wasserstein_distance([g.ppm for g in groups], [p for p, _ in obs], [g.n_h for g in groups], [h for _, h in obs]))
+    pred_counts: dict[str, float] = {}
+    obs_counts: dict[str, float] = {}
+    for g in groups:
+        pred_counts[_class_of(g.ppm)] = pred_counts.get(_class_of(g.ppm), 0) + g.n_h
+    for p, h in obs:
+        obs_counts[_class_of(p)] = obs_counts.get(_class_of(p), 0) + h
+    names = [n for n, _, _ in shift_classes() if n in pred_counts or n in obs_counts]
+    worst = max(names, key=lambda n: abs(pred_counts.get(n, 0) - obs_counts.get(n, 0)))
+    diff = obs_counts.get(worst, 0) - pred_counts.get(worst, 0)
+    status = "pass" if emd <= EMD_PASS_PPM else "warn" if emd <= EMD_WARN_PPM else "fail"
+    observed = ", ".join(f"{n} {obs_counts.get(n, 0):.1f}" for n in names)
+    expected = ", ".join(f"{n} {pred_counts.get(n, 0):.0f}" for n in names)
+    text = f"predicted shifts ({hyd.predictor_name()}) sit on average {emd:.2f} ppm per H from the observed signals"
+    if abs(diff) >= 0.7:
+        text += f"; largest difference: {worst} region holds {obs_counts.get(worst, 0):.1f} H where {pred_counts.get(worst, 0):.0f} are expected"
+    return CheckResult("shift regions", status, observed, expected, text, WEIGHTS["shift regions"], {"emd_ppm": emd})
+
+
+def check_signal_count(candidate: Candidate, evidence: Evidence) -> CheckResult:
+    """Distinct H environments of a structure against resolved signal groups (warn only: overlap is common)."""
+    if candidate.mol is None:
+        return _na("signal count", "a bare formula has no environments to count")
+    fit = best_fit(candidate, evidence)
+    if fit is None:
+        return _na("signal count", nmr_usable(evidence) or "no count")
+    expected = len(visible_groups(candidate, evidence))
+    seen = sum(1 for w in fit.whole if w > 0)
+    if seen > expected + 1:
+        return CheckResult(
+            "signal count", "warn", f"{seen} signal groups", f"at most {expected} environments",
+            f"{seen} resolved signal groups but only {expected} distinct H environments: an impurity, a mixture, rotamers or another structure",
+            WEIGHTS["signal count"],
+        )
+    return CheckResult(
+        "signal count", "pass", f"{seen} signal groups", f"up to {expected} environments",
+        f"{seen} resolved signal groups for {expected} distinct H environments (overlap can merge them)", WEIGHTS["signal count"],
+    )
+
+
+def all_checks(candidate: Candidate, evidence: Evidence) -> tuple[CheckResult, ...]:
+    """Every check, in report order."""
+    return tuple(
+        f(candidate, evidence)
+        for f in (check_mass, check_isotopes, check_proton_count, check_unsaturation, check_shift_regions, check_signal_count)
+    )

@@ -1,0 +1,46 @@
+"""The SQLite results store: one current row per (well, options), history kept, runs recorded."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from nmrcheck.plate import ResultsStore, SpectrumTrace, WellResult
+
+
+def _result(well, verdict="consistent", h="abc"):
+    trace = SpectrumTrace(10.0, -1.0, np.arange(8, dtype=np.float32))
+    return WellResult(well=well, status="done", verdict=verdict, options_hash=h, count={"total_h": 7.0}, regions=({"h": 2.0},), trace=trace)
+
+
+def test_save_current_and_history(tmp_path):
+    with ResultsStore(tmp_path) as store:
+        run = store.start_run(manifest="m.csv", options={"a": 1}, software_version="0")
+        store.save(run, _result("A1"))
+        store.save(run, _result("A1", "doubtful"))  # same options: replaces the current row
+        store.save(run, _result("A1", "inconsistent", h="other"))  # other options: a second current row
+        store.save(run, _result("B2"))
+        store.finish_run(run, "complete")
+    with ResultsStore(tmp_path / "results.sqlite") as store:
+        assert store.finished() == {("A1", "abc"), ("A1", "other"), ("B2", "abc")}
+        current = store.current()
+        assert current["A1"].verdict == "inconsistent"  # the latest recorded
+        assert [h["verdict"] for h in store.history("A1")] == ["consistent", "doubtful", "inconsistent"]
+        assert np.array_equal(current["B2"].trace.values, np.arange(8, dtype=np.float32))
+        assert current["B2"].count == {"total_h": 7.0} and current["B2"].regions == ({"h": 2.0},)
+        assert store.runs()[0].status == "complete"
+
+
+def test_unfinished_run_is_marked_interrupted(tmp_path):
+    with ResultsStore(tmp_path) as store:
+        store.start_run(manifest="m", options={}, software_version="0")
+    with ResultsStore(tmp_path) as store:
+        store.start_run(manifest="m", options={}, software_version="0")
+        assert [r.status for r in store.runs()] == ["interrupted", "running"]
+
+
+def test_database_uses_write_ahead_logging(tmp_path):
+    import sqlite3
+
+    ResultsStore(tmp_path).close()
+    mode = sqlite3.connect(tmp_path / "results.sqlite").execute("PRAGMA journal_mode").fetchone()[0]
+    assert mode == "wal"
