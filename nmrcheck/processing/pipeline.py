@@ -144,6 +144,7 @@ def process(source: Fid | SpectrumFile | str | os.PathLike, options: ProcessingO
         solvent=opts.solvent,
         reference_name=ref_name,
         exclude_ppm=exclude,
+        reference_line=ref.line,
     )
     count = None
     if any(r.counted for r in regions):

@@ -11,6 +11,10 @@ from nmrcheck.processing.spectrum import ProcessingStep, Spectrum
 
 __all__ = ["find_peak", "reference_axis"]
 
+#: A singlet reference line has no partner of comparable height within the range of
+#: common 1H-1H couplings (up to about 18 Hz geminal/trans; common practice).
+SINGLET_ISOLATION_HZ = 18.0
+
 
 def _half_width_hz(spectrum: Spectrum, i: int) -> float:
     y = spectrum.data.real
@@ -22,6 +26,18 @@ def _half_width_hz(spectrum: Spectrum, i: int) -> float:
     while hi < y.size - 1 and y[hi] > half and hi - i < limit:
         hi += 1
     return (hi - lo) * spectrum.hz_per_point
+
+
+def _is_isolated(spectrum: Spectrum, i: int, distance_hz: float) -> bool:
+    """No local maximum above a quarter of line ``i``'s height within ``distance_hz`` (beyond its own core)."""
+    y = spectrum.data.real
+    reach = int(round(distance_hz / spectrum.hz_per_point))
+    core = max(2, int(round(1.5 / spectrum.hz_per_point)))
+    lo, hi = max(1, i - reach), min(y.size - 1, i + reach + 1)
+    seg = y[lo - 1 : hi + 1]
+    peaks = np.flatnonzero((seg[1:-1] >= seg[:-2]) & (seg[1:-1] > seg[2:])) + lo
+    others = peaks[np.abs(peaks - i) > core]
+    return not np.any(y[others] > 0.25 * y[i])
 
 
 def _vertex(spectrum: Spectrum, i: int) -> float:
@@ -40,6 +56,7 @@ def find_peak(
     window_ppm: float,
     min_snr: float = 10.0,
     max_width_hz: float | None = None,
+    isolated_hz: float | None = None,
 ) -> float | None:
     """Shift of the reference line near ``centre_ppm``, or None.
 
@@ -47,7 +64,10 @@ def find_peak(
     local maxima above ``min_snr`` x noise and, when ``max_width_hz`` is given,
     no wider than that at half height, are candidates, and the one nearest to
     ``centre_ppm`` (ties to the taller) wins. Searching narrow first keeps an
-    analyte multiplet beside the solvent line from being taken for it.
+    analyte multiplet beside the solvent line from being taken for it. With
+    ``isolated_hz``, a candidate must also be a singlet: no other line of over a
+    quarter of its height within that distance (a line of a multiplet has partners
+    at the coupling constant).
     """
     y = spectrum.data.real
     floor = min_snr * noise_level(y)
@@ -59,6 +79,8 @@ def find_peak(
         idx = [sl.start + k for k in range(1, seg.size - 1) if seg[k] >= seg[k - 1] and seg[k] > seg[k + 1] and seg[k] > floor]
         if max_width_hz is not None:
             idx = [i for i in idx if _half_width_hz(spectrum, i) <= max_width_hz]
+        if isolated_hz is not None:
+            idx = [i for i in idx if _is_isolated(spectrum, i, isolated_hz)]
         if not idx:
             continue
         tallest = max(y[i] for i in idx)
@@ -97,16 +119,18 @@ def reference_axis(
     standard = None
     if prefer in ("auto", "standard"):
         for sig in solvent_signals(name, kind="reference"):
-            at = find_peak(spectrum, sig.ppm, window_ppm=search_ppm, min_snr=20.0, max_width_hz=sharp)
+            at = find_peak(spectrum, sig.ppm, window_ppm=search_ppm, min_snr=20.0, max_width_hz=sharp,
+                           isolated_hz=SINGLET_ISOLATION_HZ)
             if at is not None:
-                standard = (sig.name, sig.name, sig.ppm, at, sig.source)
+                standard = (sig.name, sig.name, sig.ppm, at, sig.source, sig.name)
                 break
     residual = None
     if prefer in ("auto", "solvent"):
         for sig in sorted(solvent_signals(name, kind="residual"), key=lambda s: -s.ppm):
-            at = find_peak(spectrum, sig.ppm, window_ppm=search_ppm, min_snr=5.0, max_width_hz=sharp)
+            at = find_peak(spectrum, sig.ppm, window_ppm=search_ppm, min_snr=5.0, max_width_hz=sharp,
+                           isolated_hz=None if sig.multiplicity != "s" else SINGLET_ISOLATION_HZ)
             if at is not None:
-                residual = ("solvent", f"{sig.name} in {name}", sig.ppm, at, sig.source)
+                residual = ("solvent", f"{sig.name} in {name}", sig.ppm, at, sig.source, sig.name)
                 break
     found = standard or residual
     if standard and residual:
@@ -120,8 +144,8 @@ def reference_axis(
             found = residual
     if found is None:
         return spectrum, Reference("none", f"none (no reference signal found for {name})", spectrum.first_ppm, None, "")
-    kind, label, target, at, source = found
+    kind, label, target, at, source, line = found
     shift = target - at
     step = ProcessingStep("reference", {"kind": kind, "ppm": target, "found_ppm": at})
     moved = spectrum.evolve(step, first_ppm=spectrum.first_ppm + shift)
-    return moved, Reference(kind, label, target, at, source)
+    return moved, Reference(kind, label, target, at, source, line)

@@ -41,13 +41,16 @@ def find_regions(
     reference_name: str | None = None,
     exclude_ppm: Sequence[tuple[float, float]] = (),
     flag_tolerance_ppm: float = 0.03,
+    reference_line: str | None = None,
 ) -> tuple[Region, ...]:
     """Integration regions of a phased, baseline-corrected, referenced spectrum.
 
     Points whose lightly smoothed real part exceeds ``threshold_snr`` times the
     noise are signal; each run is widened by ``margin_hz`` on both sides (to take
     in the Lorentzian wings) and runs closer than ``merge_hz`` are merged, so a
-    multiplet becomes one region. Regions that contain the solvent residual, the
+    multiplet becomes one region. A region holding the singlet ``reference_line``
+    (the solvent or standard line that set the axis) and analyte signal is split
+    in two. Regions that contain the solvent residual, the
     water line, the reference standard, a listed impurity (narrow regions only),
     13C satellites of a much stronger line, or fall in ``exclude_ppm``, are
     flagged and not counted.
@@ -73,12 +76,73 @@ def find_regions(
         k = a + int(np.argmax(seg))
         raw.append([ppm0 - a * step, ppm0 - b * step, integral, ppm0 - k * step, float(y[k])])
     regions: list[Region] = []
+    # Only the line that set the axis is known to be a singlet at its table position;
+    # elsewhere a line there may be the analyte's.
+    singlets = [sig for sig in signals if sig.kind in ("residual", "reference") and sig.multiplicity == "s"
+                and sig.name == reference_line]
     for start, end, integral, peak, height in raw:
         flag, label = _flag(start, end, peak, signals, reference_name, exclude_ppm, flag_tolerance_ppm, hz / step)
+        if flag in (None, "solvent", "reference"):
+            split = _split_singlet(spectrum, start, end, integral, singlets, reference_name)
+            if split is not None:
+                regions.extend(split)
+                continue
         if flag is None:
             flag, label = _satellite(start, end, peak, integral, raw, spectrum.spectrometer_mhz)
         regions.append(Region(start, end, integral, None, flag, label, peak))
     return tuple(regions)
+
+
+def _split_singlet(spectrum, start, end, integral, singlets, reference_name, *, tol_ppm=0.01):
+    """A region holding both a solvent/standard singlet and analyte signal, split in two.
+
+    The singlet's area is that of a Lorentzian with its height above the local floor
+    (the lower of the minima just outside its core) and its measured half width; the
+    rest of the region is analyte. Returns None when the region is the singlet alone
+    (under 10 % left) or holds none.
+    """
+    y = spectrum.data.real
+    hz = spectrum.hz_per_point
+    for sig in singlets:
+        if sig.kind == "reference" and sig.name != reference_name:
+            continue
+        if not (end < sig.ppm < start):
+            continue
+        i = spectrum.index_of(sig.ppm)
+        w = max(2, int(round(tol_ppm / spectrum.step_ppm)))
+        lo, hi = max(1, i - w), min(y.size - 2, i + w)
+        k = lo + int(np.argmax(y[lo : hi + 1]))
+        if not (y[k] >= y[k - 1] and y[k] >= y[k + 1]):
+            continue
+        core = max(3, int(round(4.0 / hz)))
+        left = y[max(0, k - 2 * core) : max(1, k - core)]
+        right = y[k + core : k + 2 * core]
+        if left.size == 0 or right.size == 0:
+            continue
+        floor = max(0.0, min(float(left.min()), float(right.min())))
+        top = float(y[k]) - floor
+        if top <= 0:
+            continue
+        half = floor + top / 2.0
+        a = k
+        while a > 0 and y[a] > half and k - a < core:
+            a -= 1
+        b = k
+        while b < y.size - 1 and y[b] > half and b - k < core:
+            b += 1
+        hwhm_ppm = max(1, b - a) * spectrum.step_ppm / 2.0
+        area = min(integral, np.pi * top * hwhm_ppm)
+        rest = integral - area
+        if rest < 0.1 * integral:
+            return None
+        line = Region(start, end, area, None, "solvent" if sig.kind == "residual" else "reference",
+                      f"{sig.name} (line only)", spectrum.first_ppm - k * spectrum.step_ppm)
+        remainder_peak = spectrum.first_ppm - (spectrum.index_of(start) + int(np.argmax(np.where(
+            np.abs(np.arange(spectrum.index_of(start), spectrum.index_of(end) + 1) - k) > core,
+            y[spectrum.index_of(start) : spectrum.index_of(end) + 1], -np.inf)))) * spectrum.step_ppm
+        analyte = Region(start, end, rest, None, None, f"less the {sig.name} line", remainder_peak)
+        return [analyte, line]
+    return None
 
 
 def _close(mask: np.ndarray, width: int) -> np.ndarray:

@@ -75,6 +75,8 @@ class Reference:
     found_ppm: float | None
     """Where the signal was found before referencing (None when nothing was found)."""
     source: str = ""
+    line: str | None = None
+    """Name of the table line used (e.g. 'CHCl3', 'TMS'), None when none was."""
 
 
 @dataclass(frozen=True)

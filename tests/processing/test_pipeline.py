@@ -67,10 +67,13 @@ def test_empty_spectrum_reports_no_signal():
     assert any("no analyte signal" in w for w in result.warnings)
 
 
-def test_find_unit_prefers_largest_consistent():
-    """Integrals 2:4:6 (x 1000): one proton is 1000, not 500 (which also fits, doubling every count)."""
-    unit, misfit = find_unit([2000.0, 4000.0, 6000.0, 1000.0])
-    assert unit == pytest.approx(1000.0)
+def test_find_unit_prefers_fewest_protons():
+    """Integrals 1:2:3:1 with 5 % scatter: one proton is the smallest region, not half of it
+    (half fits as well and doubles every count); 3:3:2:1 stays 9 H, not 3 H."""
+    unit, _ = find_unit([1030.0, 1950.0, 3080.0, 980.0])
+    assert unit == pytest.approx(1000.0, rel=0.05)
+    unit, _ = find_unit([3000.0, 2950.0, 2040.0, 1010.0])
+    assert unit == pytest.approx(1000.0, rel=0.05)
 
 
 def test_options_validated():
