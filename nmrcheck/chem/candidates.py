@@ -7,8 +7,10 @@ exhaustively, filtered by the chosen chemical rules, scored and ranked.
 
 Score (a log-likelihood, 0 at best, higher is better) = mass part + isotope part:
 
-* mass: ``-0.5 * sum_i (error_i / sigma_i)**2`` over the observed ions, with the tolerance
-  taken as two standard deviations (``sigma_i = tolerance_i / 2``) and independent errors;
+* mass: ``-0.5 * z' R^-1 z`` with ``z_i = error_i / sigma_i`` over the observed ions, the
+  tolerance taken as two standard deviations (``sigma_i = tolerance_i / 2``), and ``R`` the
+  correlation of the ions' errors: 1 on the diagonal, ``mass_error_correlation`` (default
+  0.5, a shared calibration error) elsewhere; for one ion, ``-0.5 * (error / sigma)**2``;
 * isotopes: ``-0.5 * chi2`` of the observed pattern against the predicted one
   (:mod:`nmrcheck.chem.isotopes` states the error model).
 
@@ -48,11 +50,11 @@ from nmrcheck.chem.isotopes import (
 )
 from nmrcheck.chem.rules import (
     RULE_NAMES,
-    _RATIO_RANGE,
     element_count_limits,
     evaluate_rules,
     filter_rules,
     pruning_for,
+    ratio_range_of,
     rules_of_preset,
 )
 from nmrcheck.data import load_table
@@ -74,6 +76,19 @@ MAX_PPM = 50.0
 """Largest ppm tolerance accepted: beyond it the data are not high-resolution."""
 MAX_MDA = 50.0
 """Largest absolute tolerance accepted, mDa."""
+MASS_ERROR_CORRELATION = 0.5
+"""Default correlation between the mass errors of the ions of one feature: ions recorded in
+the same spectrum share its calibration error; taken as half of each ion's error variance
+(an assumption, common practice)."""
+
+
+def _mass_log_likelihood(standard: np.ndarray, rho: float) -> np.ndarray:
+    """-0.5 z' R^-1 z per candidate: z the ion errors over tolerance/2 (rows: ions), R with
+    1 on the diagonal and ``rho`` elsewhere."""
+    n = standard.shape[0]
+    corr = np.full((n, n), rho) + (1.0 - rho) * np.eye(n)
+    inverse = np.linalg.inv(corr)
+    return -0.5 * np.einsum("ik,ij,jk->k", standard, inverse, standard)
 
 
 @dataclass(frozen=True)
@@ -291,6 +306,7 @@ def formula_search(
     prior: str | None = "natural_products",
     isotope_relative_error: float = RELATIVE_ERROR,
     isotope_absolute_error: float = ABSOLUTE_ERROR,
+    mass_error_correlation: float = MASS_ERROR_CORRELATION,
 ) -> FormulaSearch:
     """Enumerate, filter, score and rank neutral formulas for one MS feature.
 
@@ -318,6 +334,9 @@ def formula_search(
         formula has (``element_priors.csv``) as the score part 'prior'; None: no prior.
     isotope_relative_error, isotope_absolute_error : float
         Isotope error model (see :mod:`nmrcheck.chem.isotopes`).
+    mass_error_correlation : float
+        Correlation, 0 to <1, between the mass errors of the ions of one feature (see the
+        module docstring).
 
     Raises
     ------
@@ -331,14 +350,17 @@ def formula_search(
     rules_of_preset(rules)
     if prior is not None and prior not in PRIORS:
         raise ParameterError(f"prior: unknown {prior!r}; choose one of {', '.join(PRIORS)} or None")
+    if not isinstance(mass_error_correlation, (int, float)) or not 0 <= mass_error_correlation < 1:
+        raise ParameterError(f"mass_error_correlation: must be in [0, 1), got {mass_error_correlation!r}")
     if not isinstance(max_candidates, int) or isinstance(max_candidates, bool) or max_candidates < 1:
         raise ParameterError(f"max_candidates: a whole number >= 1, got {max_candidates!r}")
     observed = parse_intensities(isotopes) if isotopes is not None else None
 
     # Neutral-mass window allowed by each ion; they must overlap.
-    windows, centres, sigmas = [], [], []
+    windows, centres, sigmas, tolerances = [], [], [], []
     for mz, species in parsed:
         tol = _tolerance(mz, ppm, mda)
+        tolerances.append(tol)
         z, n = abs(species.charge), species.molecules
         lo = max(0.0, ((mz - tol) * z - species.mass_shift) / n)
         hi = ((mz + tol) * z - species.mass_shift) / n
@@ -366,20 +388,19 @@ def formula_search(
     table = enumerate_formulas(low, high, ranges, pruning=pruning_for(rules))
     n_in_window = len(table)
 
-    table = filter_rules(table, rules_of_preset(rules), ratio_range=_RATIO_RANGE[rules])
+    table = filter_rules(table, rules_of_preset(rules), ratio_range=ratio_range_of(rules))
     n_passed = len(table)
 
     masses = table.masses
-    errors_ppm, errors_da, mz_calc = [], [], []
-    mass_part = np.zeros(len(table))
-    for (mz, species), sigma in zip(parsed, sigmas):
+    errors_ppm, errors_da, mz_calc, standard = [], [], [], []
+    for (mz, species), tol in zip(parsed, tolerances):
         calc = (species.molecules * masses + species.mass_shift) / abs(species.charge)
         err_da = mz - calc
         mz_calc.append(calc)
         errors_da.append(err_da)
         errors_ppm.append(err_da / calc * 1e6)
-        # sigma is on the neutral-mass axis; the same error on that axis:
-        mass_part += -0.5 * (err_da * abs(species.charge) / species.molecules / sigma) ** 2
+        standard.append(err_da / (tol / 2.0))
+    mass_part = _mass_log_likelihood(np.array(standard).reshape(len(parsed), len(table)), mass_error_correlation)
     w_ion = weights / weights.sum()
     mean_ppm = sum(w * e for w, e in zip(w_ion, errors_ppm)) if len(table) else np.zeros(0)
 
@@ -405,7 +426,7 @@ def formula_search(
     # Best score first; ties by smaller mass error, then formula mass.
     order = np.lexsort((masses, np.abs(mean_ppm), -score))[:max_candidates]
     # Every rule is reported for the candidates shown, whether the preset filters on it or not.
-    verdicts = evaluate_rules(table.take(order), ratio_range=_RATIO_RANGE[rules])
+    verdicts = evaluate_rules(table.take(order), ratio_range=ratio_range_of(rules))
     if iso_part is not None:
         verdicts["isotope_pattern"] = isotope_agrees[order]
 

@@ -28,7 +28,9 @@ __all__ = [
     "FormulaTable",
     "ElementRanges",
     "parse_element_ranges",
+    "check_element_ranges",
     "enumerate_formulas",
+    "Pruning",
     "DEFAULT_ELEMENTS",
     "MAX_COUNT",
 ]
@@ -316,7 +318,8 @@ def _sorted_group(columns, counts, bounds) -> _Group:
     return _Group(tuple(columns), counts, masses, (0, n_even, counts.shape[0]))
 
 
-@lru_cache(maxsize=16)
+# A few tens of MB each: enough entries for the mass ranges of a plate, not more.
+@lru_cache(maxsize=8)
 def _groups(bounds, pruning: Pruning, cap: float) -> tuple[_Group, _Group]:
     """Split the elements into a tabulated and a searched group and build both (cached).
 

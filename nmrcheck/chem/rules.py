@@ -32,6 +32,8 @@ __all__ = [
     "ratio_limits",
     "element_probability_groups",
     "rules_of_preset",
+    "ratio_range_of",
+    "pruning_for",
 ]
 
 RULE_NAMES = (
@@ -65,6 +67,12 @@ rules 4 and 5 (Kind & Fiehn's 99.7 % and 99.99 % ranges). The isotope-pattern ru
 removes a candidate: it is scored and reported."""
 
 _RATIO_RANGE = {"common": "common", "extended": "extended", "valence": "common", "none": "common"}
+
+
+def ratio_range_of(preset: str) -> str:
+    """Ratio ranges ('common' or 'extended') that ``preset`` evaluates rules 4 and 5 with."""
+    rules_of_preset(preset)
+    return _RATIO_RANGE[preset]
 
 
 def rules_of_preset(preset: str) -> tuple[str, ...]:
