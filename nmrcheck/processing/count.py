@@ -15,13 +15,13 @@ __all__ = ["count_protons", "find_unit"]
 #: Integration error model used to choose the unit: a region of n protons reads
 #: n * (1 +- RELATIVE_ERROR) +- ABSOLUTE_ERROR protons. Routine 1H spectra acquired with
 #: short relaxation delays show 10-25 % differences between signals (measured here on the
-#: shared real recordings); 15 % + 0.25 H covers most of them.
+#: shared real recordings); 15 % + 0.15 H covers most of them.
 RELATIVE_ERROR = 0.15
-ABSOLUTE_ERROR = 0.25
+ABSOLUTE_ERROR = 0.15
 #: Cost of each proton per region (Occam factor): with relaxation errors of 15 %, halving
 #: the unit always fits about as well, so the count with fewer protons must be preferred
 #: unless the larger one fits clearly better.
-PARSIMONY = 0.3
+PARSIMONY = 0.2
 #: Cost of the share of signal that a unit leaves in regions under half a proton.
 MINOR_PENALTY = 4.0
 #: Relative integration error added to the range of the total, for baseline and

@@ -17,6 +17,8 @@ BRUKER = ["aminoacid-mix-d2o-600", "aminoacid-mix-undried-1", "culture-medium-d2
 COUNT_MISSES: dict[str, str] = {
     "1047626-52-7": "measured 16.6 H (15.7-17.4) for 18 C-H + 1 OH: overlapped aliphatic multiplets integrate low",
     "140-67-0": "measured 6.6 H (5.7-7.1) for 12 C-H: unit doubled; the vinyl CH reads 0.44 of the others (short relaxation delay), so every 2 H signal reads as 1 H",
+    "2216-51-5": "measured 32.1 H (30.8-33.4) for 19 C-H + 1 OH: unit halved; overlapped CH-O multiplets read 1.4-1.6 H each",
+    "492-62-6": "measured 23.9 H (22.9-24.9) for 7 C-H + 5 OH: unit halved; alpha/beta anomers split every signal into fractional parts",
     "2591-86-8": "measured 9.3 H (8.7-9.9) for 11 C-H: amide rotamers split signals into minor regions",
     "2759-55-9": "measured 7.6 H (6.7-8.2) for 12 C-H + 1 NH: unit doubled; aromatic 2 H doublets integrate 20 % low against the methyls",
     "517920-70-6": "measured 12.7 H (11.7-13.4) for 2 C-H + 2 exchangeable: most of the signal is not from the listed structure (impurities)",
