@@ -324,7 +324,9 @@ def _read_varian_fid(d: Path) -> Fid:
             title=_text(val("samplename")) or None,
         )
         _check_proton(d, acq)
-    return Fid(data=data.astype(np.complex128), acquisition=acq, source=str(d), format="varian", conjugate=False)
+    # Varian/Agilent record the quadrature channel with the opposite sense to Bruker
+    # (nmrglue's examples reverse Bruker spectra after the transform but not Varian ones).
+    return Fid(data=data.astype(np.complex128), acquisition=acq, source=str(d), format="varian", conjugate=True)
 
 
 def _read_jcamp(path: Path) -> tuple[dict[str, Any], Any]:
