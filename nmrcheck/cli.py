@@ -54,6 +54,41 @@ def main(verbose: int) -> None:
 # --- commands are registered below, one block per subcommand --------------------------
 
 
+_QUANT_OPTIONS = (
+    click.option("--standard", help="Internal standard by name (see the standards table) or a label for --standard-range."),
+    click.option("--standard-nmol", type=float, help="Amount of the standard in the tube, nmol."),
+    click.option("--standard-conc-mm", "--standard-mM", "standard_conc_mm", type=float, help="Concentration of the standard in the tube, mM."),
+    click.option("--standard-range", help="START:END ppm of a user-defined standard's signal."),
+    click.option("--standard-h", type=int, help="Protons of the user-defined standard's signal."),
+    click.option("--solvent-reference", is_flag=True, default=False, help="Use the residual solvent signal as the amount reference (needs --deuteration-pct and --volume-ul)."),
+    click.option("--deuteration-pct", "--deuteration", "deuteration_pct", type=float, help="Solvent lot's deuteration grade, atom % D (e.g. 99.8)."),
+    click.option("--calibration", type=click.Path(exists=True), help="Calibration recording of a known sample on the same probe (PULCON)."),
+    click.option("--calibration-conc-mm", "--calibration-mM", "calibration_conc_mm", type=float, help="Concentration of the calibration compound, mM."),
+    click.option("--calibration-range", help="START:END ppm of the calibration signal."),
+    click.option("--calibration-h", type=int, help="Protons of the calibration signal."),
+    click.option("--volume-ul", type=float, help="Solution volume in the tube, microlitres."),
+    click.option("--experiment", help="Next experiment for the go/no-go, a name in the thresholds [default: 1H-13C HSQC]."),
+    click.option("--thresholds", type=click.Path(exists=True), help="User thresholds file (CSV, JSON or TOML) replacing the defaults."),
+    click.option("--required-ug", type=float, help="Mass the next experiment needs (e.g. a bioassay), ug."),
+)
+
+
+def quant_options(func):
+    """Add the amount-reference and go/no-go options; the command receives them as one ``quant`` (QuantOptions)."""
+    names = ("standard", "standard_nmol", "standard_conc_mm", "standard_range", "standard_h", "solvent_reference", "deuteration_pct",
+             "calibration", "calibration_conc_mm", "calibration_range", "calibration_h", "volume_ul", "experiment", "thresholds", "required_ug")
+
+    @functools.wraps(func)
+    def wrapper(*args, **kwargs):
+        from nmrcheck.quant.options import QuantOptions
+
+        return func(*args, quant=QuantOptions(**{n: kwargs.pop(n) for n in names}), **kwargs)
+
+    for option in reversed(_QUANT_OPTIONS):
+        wrapper = option(wrapper)
+    return wrapper
+
+
 # --- process ------------------------------------------------------------------------------
 
 
@@ -80,9 +115,15 @@ def _phase_option(value: str | None) -> tuple[float, float] | None:
 @click.option("--save-spectrum", type=click.Path(path_type=str), default=None, help="Write ppm, real, imag arrays to FILE.npz.")
 @click.option("--plot", "plot_path", type=click.Path(path_type=str), default=None, help="Draw the spectrum with regions to FILE.png.")
 @user_errors
-def process_command(path, as_json, size, lb_hz, solvent, phase, anchor_h, save_spectrum, plot_path):
-    """Read, phase, reference and integrate one 1H recording and count its protons."""
+@quant_options
+def process_command(path, as_json, size, lb_hz, solvent, phase, anchor_h, save_spectrum, plot_path, quant):
+    """Read, phase, reference and integrate one 1H recording and count its protons.
+
+    With an amount reference (--standard, --solvent-reference or --calibration) also the
+    amount per proton unit and the go/no-go for the next experiment.
+    """
     import json
+    from dataclasses import replace
 
     from nmrcheck.processing import ProcessingOptions, process
     from nmrcheck.processing.summary import processed_summary
@@ -91,6 +132,9 @@ def process_command(path, as_json, size, lb_hz, solvent, phase, anchor_h, save_s
     processed = process(path, options)
     summary = processed_summary(processed)
     summary["options"] = options.as_dict()
+    if quant.requested:
+        amount = quant.amount(processed, processing=replace(options, phase=None, anchor_h=None, solvent=None))
+        summary.update({k: v for k, v in quant.assess(amount, processed).as_dict().items() if k != "candidates"})
     if save_spectrum:
         from nmrcheck.io.arrays import save_spectrum_npz
 
@@ -204,71 +248,31 @@ def demo(out_dir, workers) -> None:
 # --- quant: amount in the tube and go/no-go ------------------------------------------------
 
 
-def _ppm_range(text: str | None, option: str) -> tuple[float, float] | None:
-    if text is None:
-        return None
-    from nmrcheck.errors import ParameterError
-
-    try:
-        a, b = (float(v) for v in text.replace(",", ":").split(":"))
-    except ValueError:
-        raise ParameterError(f"{option}: expected START:END in ppm, got {text!r}") from None
-    return (a, b)
-
-
 @main.command("quant", context_settings=CONTEXT)
 @click.argument("spectrum", type=click.Path(exists=True))
-@click.option("--standard", help="Internal standard by name (see the standards table) or a label for --standard-range.")
-@click.option("--standard-nmol", type=float, help="Amount of the standard in the tube, nmol.")
-@click.option("--standard-mM", "standard_mm", type=float, help="Concentration of the standard in the tube, mM.")
-@click.option("--standard-range", help="START:END ppm of a user-defined standard's signal.")
-@click.option("--standard-h", type=int, help="Protons of the user-defined standard's signal.")
-@click.option("--solvent-reference", is_flag=True, help="Use the residual solvent signal (needs --deuteration and --volume-ul).")
-@click.option("--deuteration", type=float, help="Solvent lot's deuteration grade, atom % D (e.g. 99.8).")
-@click.option("--calibration", type=click.Path(exists=True), help="Calibration recording of a known sample on the same probe (PULCON).")
-@click.option("--calibration-mM", "calibration_mm", type=float, help="Concentration of the calibration compound, mM.")
-@click.option("--calibration-range", help="START:END ppm of the calibration signal.")
-@click.option("--calibration-h", type=int, help="Protons of the calibration signal.")
-@click.option("--volume-ul", type=float, help="Solution volume in the tube, microlitres.")
 @click.option("--range", "analyte_range", multiple=True, help="START:END ppm of the analyte signal (repeatable; default: all counted regions).")
 @click.option("--analyte-h", type=float, help="Protons the analyte ranges hold per molecule.")
 @click.option("--candidate", multiple=True, help="Candidate formula, SMILES or molar mass (g/mol); repeatable.")
-@click.option("--experiment", default="1H-13C HSQC", show_default=True, help="Next experiment to decide on (a name in the thresholds).")
-@click.option("--required-ug", type=float, help="Mass the next experiment needs (e.g. a bioassay), ug.")
-@click.option("--thresholds", type=click.Path(exists=True), help="User thresholds file (CSV, JSON or TOML) replacing the defaults.")
 @click.option("--longest-t1", type=float, help="Longest T1 expected for the analyte, s (default 3 s) for the relaxation warning.")
 @click.option("--json", "as_json", is_flag=True, help="Print the result as JSON.")
 @user_errors
-def quant_command(spectrum, standard, standard_nmol, standard_mm, standard_range, standard_h, solvent_reference, deuteration, calibration, calibration_mm, calibration_range, calibration_h, volume_ul, analyte_range, analyte_h, candidate, experiment, required_ug, thresholds, longest_t1, as_json):
+@quant_options
+def quant_command(spectrum, analyte_range, analyte_h, candidate, longest_t1, as_json, quant):
     """Estimate how much compound SPECTRUM's tube holds, and whether it is enough for the next experiment."""
     import json
 
     from nmrcheck.errors import ParameterError
     from nmrcheck.processing import process
-    from nmrcheck.quant import ExternalCalibration, SolventReference, StandardReference, amount_for, quantify, recommend
+    from nmrcheck.quant import parse_ppm_range
 
-    chosen = sum(bool(x) for x in (standard, solvent_reference, calibration))
-    if chosen != 1:
+    if not quant.requested:
         raise ParameterError("reference: give exactly one of --standard, --solvent-reference or --calibration")
     processed = process(spectrum)
-    if standard:
-        method = StandardReference(standard, nmol=standard_nmol, conc_mM=standard_mm, volume_ul=volume_ul, range_ppm=_ppm_range(standard_range, "--standard-range"), n_h=standard_h)
-    elif solvent_reference:
-        if deuteration is None or volume_ul is None:
-            raise ParameterError("--solvent-reference needs --deuteration (atom % D of the lot) and --volume-ul")
-        solvent = processed.spectrum.solvent
-        if not solvent:
-            raise ParameterError("--solvent-reference: the recording names no solvent")
-        method = SolventReference(solvent, deuteration_pct=deuteration, volume_ul=volume_ul)
-    else:
-        if calibration_mm is None or calibration_range is None or calibration_h is None:
-            raise ParameterError("--calibration needs --calibration-mM, --calibration-range and --calibration-h")
-        method = ExternalCalibration(process(calibration), conc_mM=calibration_mm, range_ppm=_ppm_range(calibration_range, "--calibration-range"), n_h=calibration_h, volume_ul=volume_ul)
-    ranges = [_ppm_range(r, "--range") for r in analyte_range] or None
-    amount = quantify(processed, method=method, analyte_range_ppm=ranges, analyte_h=analyte_h, longest_t1_s=longest_t1)
-    candidates = [amount_for(amount, float(c) if c.replace(".", "", 1).isdigit() else c) for c in candidate]
-    target = candidates[0] if candidates else amount
-    rec = recommend(target, amount.snr, experiment=experiment, config=thresholds, required_ug=required_ug, acquisition=processed.spectrum.acquisition)
+    ranges = [parse_ppm_range(r, "--range") for r in analyte_range] or None
+    amount = quant.amount(processed, analyte_range_ppm=ranges, analyte_h=analyte_h, longest_t1_s=longest_t1)
+    q = quant.assess(amount, processed, candidates=[(float(c) if c.replace(".", "", 1).isdigit() else c, None) for c in candidate])
+    candidates = [c for c, _ in q.candidates]
+    rec = q.recommendation
     result = {
         "spectrum": str(spectrum),
         "amount": amount.as_dict(),
@@ -307,10 +311,13 @@ def quant_command(spectrum, standard, standard_nmol, standard_mm, standard_range
 @click.option("--json", "as_json", is_flag=True, help="Print JSON.")
 @click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="Save an overlay of predicted shifts (PNG).")
 @user_errors
-def check_command(spectrum, formulas, smiles, candidates_file, mz, ion, ppm_tol, isotopes, solvent, as_json, plot_path):
+@quant_options
+def check_command(spectrum, formulas, smiles, candidates_file, mz, ion, ppm_tol, isotopes, solvent, as_json, plot_path, quant):
     """Check candidate formulas and structures against SPECTRUM and an MS feature.
 
-    With an MS feature and no candidates, the formula engine proposes them.
+    With an MS feature and no candidates, the formula engine proposes them. With an amount
+    reference (--standard, --solvent-reference or --calibration) each candidate also gets its
+    amount in the tube (from the protons its count assigns) and the go/no-go for the next experiment.
     """
     from nmrcheck.errors import ParameterError as _ParameterError
     from nmrcheck.processing import process as _process
@@ -344,7 +351,12 @@ def check_command(spectrum, formulas, smiles, candidates_file, mz, ion, ppm_tol,
         from nmrcheck.report.check_plot import plot_check
 
         plot_check(processed, verdicts, plot_path)
-    click.echo(verdicts_json(verdicts, problems, evidence=evidence) if as_json else verdicts_text(verdicts, problems, evidence=evidence))
+    amounts = None
+    if quant.requested:
+        amount = quant.amount(processed)
+        amounts = quant.assess(amount, processed, candidates=[(v.candidate.formula, v.counted_h(evidence, exclude_ppm=amount.reference_range_ppm)) for v in verdicts])
+    render = verdicts_json if as_json else verdicts_text
+    click.echo(render(verdicts, problems, evidence=evidence, amounts=amounts))
 
 
 # --- formulas -----------------------------------------------------------------------------

@@ -1,4 +1,4 @@
-"""Shared fixtures: where the real recordings are (or a clear skip when they are not)."""
+"""Shared fixtures: where the real recordings are (or a clear skip when they are not), and a screened synthetic plate."""
 
 from __future__ import annotations
 
@@ -38,3 +38,34 @@ def bruker_recordings() -> list[str]:
     if p is None or not (p / "bruker-raw").is_dir():
         return []
     return sorted(d.name for d in (p / "bruker-raw").iterdir() if (d / "fid").exists())
+
+
+# A synthetic 24-well plate, shared by the plate and report tests so it is built and screened once:
+# the demo plate's first 22 wells, its empty well (B11) and its truncated recording (C12), small FIDs.
+PLATE_POINTS = 8192
+
+
+def plate_wells():
+    from nmrcheck.demo import demo_wells
+
+    wells = demo_wells()
+    return tuple(list(wells[:22]) + [w for w in wells if w.well in ("B11", "C12")])
+
+
+@pytest.fixture(scope="session")
+def plate_manifest(tmp_path_factory):
+    """Path of the 24-well manifest; its recordings are Bruker folders next to it."""
+    from nmrcheck.demo import build_demo_plate
+
+    return build_demo_plate(tmp_path_factory.mktemp("plate24"), points=PLATE_POINTS, wells=plate_wells())
+
+
+@pytest.fixture(scope="session")
+def screened_plate(plate_manifest, tmp_path_factory):
+    """The 24-well plate screened once with two local workers: (manifest, out_dir, summary)."""
+    from nmrcheck.plate import read_manifest, run_plate
+
+    out = tmp_path_factory.mktemp("plate24-out")
+    manifest = read_manifest(plate_manifest)
+    summary = run_plate(manifest, out, workers=2)
+    return manifest, out, summary

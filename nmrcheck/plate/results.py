@@ -74,7 +74,10 @@ class WellResult:
     checks: tuple[dict[str, Any], ...] = ()
     """Per candidate: the validation's verdict, score and reasons."""
     amount: dict[str, Any] | None = None
-    recommendation: str | None = None
+    """Amount in the tube: ``nmol``, ``ug``, ``conc_mM``, ``uncertainty_pct``, ``method`` and ``basis`` (the
+    candidate it is for, or the proton unit), with ``per_proton`` and the full quantification in ``details``."""
+    recommendation: dict[str, Any] | None = None
+    """Go/no-go for the next experiment: ``decision``, ``experiment``, ``reasons``, ``scans_needed``, ``hours_needed``."""
     error: str | None = None
     notes: tuple[str, ...] = ()
     """What the run could not do for this well and why (e.g. a stage not installed)."""
@@ -111,6 +114,11 @@ class WellResult:
         for name in ("regions", "candidates", "checks", "notes"):
             if name in kw and kw[name] is not None:
                 kw[name] = tuple(kw[name])
+        rec = kw.get("recommendation")
+        if isinstance(rec, str):
+            # Results stored before recommendations were records held 'decision (experiment)'.
+            decision, _, experiment = rec.partition(" (")
+            kw["recommendation"] = {"decision": decision, "experiment": experiment.rstrip(")"), "reasons": []}
         return cls(**kw, trace=trace)
 
 

@@ -193,9 +193,10 @@ def _candidate_list(spec: WellSpec, options: ScreenOptions, notes: list[str]) ->
     return objects, records
 
 
-def _check_record(key: str, verdict) -> dict[str, Any]:
+def _check_record(key: str, verdict, evidence) -> dict[str, Any]:
     return {
         "key": key,
+        "counted_h": verdict.counted_h(evidence),
         "label": verdict.candidate.label,
         "formula": verdict.candidate.formula.hill,
         "verdict": verdict.verdict,
@@ -227,7 +228,7 @@ def _validate(processed, spec: WellSpec, options: ScreenOptions, objects: list[A
         return []
     by_id = {id(obj): key for key, obj in pairs}
     verdicts = check_candidates([obj for _, obj in pairs], evidence)
-    return [_check_record(by_id[id(v.candidate)], v) for v in verdicts]
+    return [_check_record(by_id[id(v.candidate)], v, evidence) for v in verdicts]
 
 
 def _verdict_of(checks: list[dict[str, Any]] | None, records: list[dict[str, Any]]) -> str:
@@ -251,31 +252,37 @@ def _verdict_of(checks: list[dict[str, Any]] | None, records: list[dict[str, Any
     return "undecided"
 
 
-def _quantify(processed, options: ScreenOptions, checks: list[dict[str, Any]] | None, records: list[dict[str, Any]], notes: list[str]) -> tuple[dict[str, Any] | None, str | None]:
-    """Amount against the residual solvent signal and the go/no-go for the next experiment."""
+def _quantify(processed, options: ScreenOptions, checks: list[dict[str, Any]] | None, records: list[dict[str, Any]], notes: list[str]) -> tuple[dict[str, Any] | None, dict[str, Any] | None]:
+    """Amount against the residual solvent signal and the go/no-go for the next experiment.
+
+    The amount is that of the well's lead candidate (the manifest's own before the HRMS search's,
+    best verdict first) from the protons its count assigns; without a checked candidate it is
+    the amount per proton unit.
+    """
     try:
-        from nmrcheck.quant import SolventReference, amount_for, quantify, recommend
+        from nmrcheck.quant import QuantOptions
     except ImportError:
         notes.append("quantification stage not installed: no amount or go/no-go recommendation")
         return None, None
-    solvent = processed.spectrum.solvent
-    if not solvent:
+    if not processed.spectrum.solvent:
         notes.append("no amount: the solvent is unknown, so its residual signal cannot serve as the reference")
         return None, None
-    method = SolventReference(solvent=solvent, deuteration_pct=options.deuteration_pct, volume_ul=options.solvent_volume_ul)
-    amount = quantify(processed, method=method)
-    out: dict[str, Any] = {"per_proton": plain(amount)}
-    target = None
+    quant = QuantOptions(solvent_reference=True, deuteration_pct=options.deuteration_pct, volume_ul=options.solvent_volume_ul, experiment=options.next_experiment)
+    amount = quant.amount(processed)
+    lead = None
     if checks:
         named = {r["key"] for r in records if str(r.get("source", "")).startswith("manifest")}
-        ordered = sorted(checks, key=lambda c: (c["key"] not in named, _VERDICT_ORDER.index(c["verdict"]) if c["verdict"] in _VERDICT_ORDER else 9, c["rank"]))
-        target = ordered[0]["formula"]
-    per_candidate = amount_for(amount, target) if target else amount
-    if target:
-        out["candidate"] = plain(per_candidate)
-    rec = recommend(per_candidate, float(processed.snr), experiment=options.next_experiment, acquisition=processed.spectrum.acquisition)
-    out["recommendation"] = plain(rec)
-    return out, f"{rec.decision} ({rec.experiment})"
+        lead = min(checks, key=lambda c: (c["key"] not in named, _VERDICT_ORDER.index(c["verdict"]) if c["verdict"] in _VERDICT_ORDER else 9, c["rank"]))
+    result = quant.assess(amount, processed, candidates=[(lead["formula"], lead.get("counted_h"))] if lead else ())
+    if result.candidates:
+        head = result.candidates[0][0].as_dict()
+        basis = f"{head['candidate']} ({head['n_h']:g} H)"
+    else:
+        head = amount.brief()
+        basis = f"per {head['per']}"
+    out: dict[str, Any] = {k: head[k] for k in ("nmol", "ug", "conc_mM", "uncertainty_pct", "method")}
+    out.update(basis=basis, candidate=head if result.candidates else None, per_proton=amount.brief(), details=plain(amount))
+    return out, result.recommendation.as_dict()
 
 
 def screen_well(spec: WellSpec, directory: str, options: ScreenOptions) -> WellResult:

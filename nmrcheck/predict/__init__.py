@@ -8,7 +8,6 @@ from nmrcheck.predict.exchange import (
     exchangeable_bound,
     exchangeable_hydrogens,
     expected_visible_h,
-    normalise_solvent,
     solvent_exchange_rules,
 )
 from nmrcheck.predict.regions import SHIFT_REGIONS, ShiftRegion, bin_by_region, region_of
@@ -28,7 +27,6 @@ __all__ = [
     "exchangeable_hydrogens",
     "expected_visible_h",
     "group_environments",
-    "normalise_solvent",
     "predict_shifts",
     "region_of",
     "solvent_exchange_rules",

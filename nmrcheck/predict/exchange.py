@@ -17,9 +17,10 @@ from typing import NamedTuple
 from rdkit import Chem
 
 from nmrcheck.data import load_table
-from nmrcheck.errors import CandidateError, FormulaError, ParameterError, TableError
+from nmrcheck.errors import CandidateError, FormulaError, TableError
 from nmrcheck.predict import _tables
 from nmrcheck.predict._perceive import MolView, exchange_class
+from nmrcheck.processing.solvents import known_solvents, require_solvent
 
 __all__ = [
     "SOLVENTS",
@@ -29,7 +30,6 @@ __all__ = [
     "exchangeable_bound",
     "exchangeable_hydrogens",
     "expected_visible_h",
-    "normalise_solvent",
     "solvent_exchange_rules",
 ]
 
@@ -78,27 +78,14 @@ class VisibleHydrogens(NamedTuple):
 
 
 # ---------------------------------------------------------------------------- solvents
-def _alias_key(name: str) -> str:
-    return re.sub(r"[\s_]+", "", name.strip().lower())
-
-
-@lru_cache(maxsize=None)
-def _aliases() -> dict[str, str]:
-    out = {}
-    for row in load_table("solvent_aliases"):
-        out[_alias_key(row["alias"])] = row["solvent"]
-    # a canonical name always names itself
-    for solvent in set(out.values()):
-        out[_alias_key(solvent)] = solvent
-    return out
-
-
 @lru_cache(maxsize=None)
 def _rules() -> dict[str, dict[str, ExchangeRule]]:
     out: dict[str, dict[str, ExchangeRule]] = {}
     classes = _tables.exchangeable_classes()
     for row in load_table("solvent_exchange"):
         solvent, h_class, visible = row["solvent"], row["h_class"], row["visible"].lower()
+        if solvent not in known_solvents():
+            raise TableError(f"solvent_exchange.csv: solvent {solvent!r} is not a solvent of solvents.csv")
         if h_class not in classes:
             raise TableError(f"solvent_exchange.csv: unknown h_class {h_class!r} for {solvent}")
         if visible not in _VISIBILITY:
@@ -123,32 +110,14 @@ SOLVENTS: tuple[str, ...] = tuple(sorted(_rules()))
 """Canonical names of the solvents the exchange table covers."""
 
 
-def normalise_solvent(name: str) -> str:
-    """Canonical solvent name for a spelling such as 'cdcl3', 'DMSO', 'MeOD' or 'H2O+D2O'.
-
-    Matching ignores case, spaces and underscores. Returns one of :data:`SOLVENTS`.
-
-    Raises
-    ------
-    ParameterError
-        If ``name`` is not a string or not a known solvent.
-
-    Examples
-    --------
-    >>> normalise_solvent("dmso"), normalise_solvent("MeOD"), normalise_solvent("H2O+D2O")
-    ('DMSO-d6', 'CD3OD', 'H2O/D2O')
-    """
-    if not isinstance(name, str) or not name.strip():
-        raise ParameterError(f"solvent={name!r} must be a non-empty solvent name")
-    solvent = _aliases().get(_alias_key(name))
-    if solvent is None or solvent not in _rules():
-        raise ParameterError(f"solvent={name!r} is not a known NMR solvent; known: {', '.join(SOLVENTS)}")
-    return solvent
+def _solvent(name: str) -> str:
+    """Canonical name of ``name`` (the package's one solvent vocabulary), which must be one of :data:`SOLVENTS`."""
+    return require_solvent(name, among=SOLVENTS)
 
 
 def solvent_exchange_rules(solvent: str) -> Mapping[str, ExchangeRule]:
     """The exchange rule of every exchangeable-H class in ``solvent`` (read-only mapping by class name)."""
-    return MappingProxyType(_rules()[normalise_solvent(solvent)])
+    return MappingProxyType(_rules()[_solvent(solvent)])
 
 
 # ---------------------------------------------------------------------------- structures
@@ -228,15 +197,16 @@ def exchangeable_bound(formula: str | Mapping[str, int]) -> int:
     return min(counts.get("H", 0), 2 * counts.get("N", 0) + counts.get("O", 0) + counts.get("S", 0))
 
 
-def expected_visible_h(mol_or_formula: Chem.Mol | str | Mapping[str, int], solvent: str) -> VisibleHydrogens:
+def expected_visible_h(mol_or_formula: Chem.Mol | str | Mapping[str, int], solvent: str | None) -> VisibleHydrogens:
     """How many H the 1H spectrum of a structure (or formula) should integrate to in ``solvent``.
 
     Parameters
     ----------
     mol_or_formula : rdkit.Chem.Mol, str or mapping
         A structure, or a molecular formula as a string ('C6H12O6') or element counts.
-    solvent : str
-        Any spelling :func:`normalise_solvent` accepts.
+    solvent : str or None
+        Any spelling :func:`nmrcheck.processing.solvents.normalise_solvent` accepts, of a solvent in :data:`SOLVENTS`;
+        None for a solvent not known, where every exchangeable H may or may not be seen.
 
     Returns
     -------
@@ -250,7 +220,7 @@ def expected_visible_h(mol_or_formula: Chem.Mol | str | Mapping[str, int], solve
     >>> expected_visible_h("C6H12O6", "D2O")
     VisibleHydrogens(min_h=6, max_h=12, carbon_bound_h=6, exchangeable_h=6)
     """
-    rules = _rules()[normalise_solvent(solvent)]
+    rules = _rules()[_solvent(solvent)] if solvent is not None else None
     if isinstance(mol_or_formula, (str, Mapping)):
         counts = _element_counts(mol_or_formula)
         total = counts.get("H", 0)
@@ -262,6 +232,8 @@ def expected_visible_h(mol_or_formula: Chem.Mol | str | Mapping[str, int], solve
     sites = exchangeable_hydrogens(mol)
     exchangeable = sum(s.n_h for s in sites)
     fixed = total - exchangeable
+    if rules is None:
+        return VisibleHydrogens(fixed, total, fixed, exchangeable)
     seen = sum(s.n_h for s in sites if rules[s.h_class].visible == "yes")
     maybe = sum(s.n_h for s in sites if rules[s.h_class].visible == "maybe")
     return VisibleHydrogens(fixed + seen, fixed + seen + maybe, fixed, exchangeable)

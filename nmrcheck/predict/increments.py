@@ -43,6 +43,14 @@ def _values(table: dict, keys: Iterable[str], field: str, which: str) -> list:
     return out
 
 
+def _additive(table: dict, base_ppm: float, positions: dict[str, Iterable[str]], which: str) -> float:
+    """``base_ppm`` plus each listed substituent's increment for its position (the k-th column of ``table``)."""
+    total = base_ppm
+    for k, (name, keys) in enumerate(positions.items()):
+        total += sum(v[k] for v in _values(table, keys, name, which))
+    return total
+
+
 def substituent_names(rule: str) -> tuple[str, ...]:
     """Substituent names a rule accepts.
 
@@ -80,12 +88,8 @@ def beauchamp_marquez(
     """
     if n_h not in _SP3_BASE:
         raise ParameterError(f"n_h={n_h!r}: an sp3 carbon carries 1, 2 or 3 hydrogens")
-    table = _tables.sp3_increments()
-    total = _tables.base_value(_SP3_BASE[n_h]).ppm
-    for k, keys in enumerate((alpha, beta, gamma)):
-        name = ("alpha", "beta", "gamma")[k]
-        total += sum(v[k] for v in _values(table, keys, name, "the Beauchamp-Marquez table"))
-    return total
+    positions = {"alpha": alpha, "beta": beta, "gamma": gamma}
+    return _additive(_tables.sp3_increments(), _tables.base_value(_SP3_BASE[n_h]).ppm, positions, "the Beauchamp-Marquez table")
 
 
 def shoolery_methylene(x: str, y: str) -> float:
@@ -115,12 +119,8 @@ def pascual_meier_simon(*, gem: Iterable[str] = (), cis: Iterable[str] = (), tra
     >>> round(pascual_meier_simon(gem=["alkyl"], cis=["COOR"]), 2)  # ethyl (E)-crotonate H-3
     6.88
     """
-    table = _tables.alkene_increments()
-    total = _tables.base_value("ethylene").ppm
-    for k, keys in enumerate((gem, cis, trans)):
-        name = ("gem", "cis", "trans")[k]
-        total += sum(v[k] for v in _values(table, keys, name, "the Pascual-Meier-Simon table"))
-    return total
+    positions = {"gem": gem, "cis": cis, "trans": trans}
+    return _additive(_tables.alkene_increments(), _tables.base_value("ethylene").ppm, positions, "the Pascual-Meier-Simon table")
 
 
 def benzene_increment_shift(
@@ -133,9 +133,5 @@ def benzene_increment_shift(
     >>> round(benzene_increment_shift(ortho=["NO2"], meta=["OR"]), 2)  # 4-nitroanisole H-3/5
     8.12
     """
-    table = _tables.benzene_increments()
-    total = _tables.base_value("benzene").ppm
-    for k, keys in enumerate((ortho, meta, para)):
-        name = ("ortho", "meta", "para")[k]
-        total += sum(v[k] for v in _values(table, keys, name, "the benzene increment table"))
-    return total
+    positions = {"ortho": ortho, "meta": meta, "para": para}
+    return _additive(_tables.benzene_increments(), _tables.base_value("benzene").ppm, positions, "the benzene increment table")

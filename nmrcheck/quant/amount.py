@@ -23,6 +23,7 @@ from nmrcheck.quant.references import (
     ExternalCalibration,
     SolventReference,
     StandardReference,
+    checked_range,
     molar_mass_of,
     solvent_info,
     standard_info,
@@ -47,6 +48,11 @@ DEFAULT_LONGEST_T1_S = 3.0
 
 #: Reference peak must stand this many noise standard deviations tall to be used.
 MIN_REFERENCE_HEIGHT = 20.0
+
+
+def _sig(v: float | None, n: int = 4) -> float | None:
+    """``v`` to ``n`` significant digits (None stays None)."""
+    return None if v is None else float(f"{v:.{n}g}")
 
 
 @dataclass(frozen=True)
@@ -83,9 +89,7 @@ class Amount:
     details: dict[str, Any] = field(default_factory=dict)
 
     def as_dict(self) -> dict[str, Any]:
-        def r(v, n=4):
-            return None if v is None else float(f"{v:.{n}g}")
-
+        r = _sig
         return {
             "nmol_per_proton": r(self.nmol_per_proton),
             "conc_mM_per_proton": r(self.conc_mM_per_proton),
@@ -105,6 +109,19 @@ class Amount:
             "details": dict(self.details),
         }
 
+    def brief(self) -> dict[str, Any]:
+        """The amount of the one-proton unit as commands and reports show it (no molar mass, so no ug)."""
+        return {
+            "nmol": _sig(self.nmol_per_proton),
+            "ug": None,
+            "conc_mM": _sig(self.conc_mM_per_proton),
+            "uncertainty_pct": _sig(self.uncertainty_pct, 3),
+            "method": self.method,
+            "per": f"{self.analyte_h:g} H ({self.analyte_h_source})",
+            "reference": self.reference,
+            "warnings": list(self.warnings),
+        }
+
 
 @dataclass(frozen=True)
 class CandidateAmount:
@@ -120,9 +137,7 @@ class CandidateAmount:
     method: str
 
     def as_dict(self) -> dict[str, Any]:
-        def r(v, n=4):
-            return None if v is None else float(f"{v:.{n}g}")
-
+        r = _sig
         return {
             "candidate": self.label,
             "molar_mass": round(self.molar_mass, 3),
@@ -236,16 +251,7 @@ def _analyte_ranges(processed: Processed, analyte_range_ppm, exclude: tuple[floa
     ranges = analyte_range_ppm
     if len(ranges) == 2 and all(isinstance(v, (int, float, np.floating)) for v in ranges):
         ranges = [ranges]
-    out = []
-    for rng in ranges:
-        try:
-            a, b = (float(v) for v in rng)
-        except (TypeError, ValueError):
-            raise ParameterError(f"analyte_range_ppm: expected (start, end) shifts, got {rng!r}") from None
-        if a == b:
-            raise ParameterError(f"analyte_range_ppm: the two ends are equal ({a} ppm)")
-        out.append((max(a, b), min(a, b)))
-    return out, None
+    return [checked_range("analyte_range_ppm", rng) for rng in ranges], None
 
 
 def _relaxation_warnings(processed: Processed, t1_values: Sequence[float], flip_deg: float | None) -> tuple[list[str], dict[str, Any]]:

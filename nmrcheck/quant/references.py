@@ -39,7 +39,8 @@ def _positive(name: str, value: float | None, *, allow_none: bool = True) -> Non
         raise ParameterError(f"{name}: must be a positive finite number, got {value!r}")
 
 
-def _range(name: str, value: tuple[float, float] | None) -> tuple[float, float] | None:
+def checked_range(name: str, value: tuple[float, float] | None) -> tuple[float, float] | None:
+    """``value`` as (high, low) ppm; ``name`` is the field an error names."""
     if value is None:
         return None
     try:
@@ -166,7 +167,7 @@ class StandardReference:
             raise ParameterError(f"uncertainty_pct: must not be negative, got {self.uncertainty_pct}")
         if self.n_h is not None and self.n_h <= 0:
             raise ParameterError(f"n_h: the standard's signal must hold at least one proton, got {self.n_h}")
-        object.__setattr__(self, "range_ppm", _range("standard range_ppm", self.range_ppm))
+        object.__setattr__(self, "range_ppm", checked_range("standard range_ppm", self.range_ppm))
         if self.range_ppm is not None and self.n_h is None:
             raise ParameterError("n_h: a standard given by range_ppm needs the number of protons of that signal")
 
@@ -240,7 +241,7 @@ class SolventReference:
         _positive("volume_ul", self.volume_ul, allow_none=False)
         if normalise_solvent(self.solvent) is None:
             raise ParameterError(f"solvent: {self.solvent!r} is not in the solvent table")
-        object.__setattr__(self, "range_ppm", _range("solvent range_ppm", self.range_ppm))
+        object.__setattr__(self, "range_ppm", checked_range("solvent range_ppm", self.range_ppm))
 
     def residual_nmol_h(self) -> float:
         """nmol of residual protons of the solvent in the tube."""
@@ -275,6 +276,6 @@ class ExternalCalibration:
         _positive("volume_ul", self.volume_ul)
         if self.n_h <= 0:
             raise ParameterError(f"n_h: the calibration signal must hold at least one proton, got {self.n_h}")
-        object.__setattr__(self, "range_ppm", _range("calibration range_ppm", self.range_ppm))
+        object.__setattr__(self, "range_ppm", checked_range("calibration range_ppm", self.range_ppm))
         if not hasattr(self.calibration, "spectrum"):
             raise ParameterError("calibration: expected a processed calibration recording (nmrcheck.processing.process result)")

@@ -9,8 +9,9 @@ from pathlib import Path
 from typing import Any, Iterable, Mapping
 
 from nmrcheck.plate.results import WellResult
+from nmrcheck.report.amount_text import amount_line
 
-__all__ = ["CSV_COLUMNS", "well_row", "write_csv", "write_json"]
+__all__ = ["CSV_COLUMNS", "amount_text", "recommendation_text", "well_row", "write_csv", "write_json"]
 
 CSV_COLUMNS = (
     "well",
@@ -28,7 +29,16 @@ CSV_COLUMNS = (
     "best_formula_error_ppm",
     "named_candidates",
     "amount",
+    "amount_nmol",
+    "amount_ug",
+    "amount_conc_mM",
+    "amount_uncertainty_pct",
+    "amount_method",
+    "amount_basis",
     "recommendation",
+    "recommendation_experiment",
+    "scans_needed",
+    "hours_needed",
     "error",
     "notes",
     "spectrum_path",
@@ -46,6 +56,26 @@ def _fmt(v: Any, digits: int = 2) -> str:
     return str(v)
 
 
+def _num(v: Any) -> str:
+    """A number to four significant digits (amounts span orders of magnitude)."""
+    return "" if v is None else f"{float(v):.4g}"
+
+
+def amount_text(amount: Mapping[str, Any] | None) -> str:
+    """'206 nmol, 31.3 ug, 5.89 mM +- 20.3 % (solvent residual)' from a well's amount record; '' when there is none."""
+    # Records written before amounts had this shape carry no headline figures: show nothing rather than guess.
+    if not amount or "uncertainty_pct" not in amount:
+        return ""
+    return amount_line(amount)
+
+
+def recommendation_text(rec: Mapping[str, Any] | None) -> str:
+    """'go (1H-13C HSQC)' from a well's recommendation record; '' when there is none."""
+    if not rec:
+        return ""
+    return f"{rec.get('decision', '')} ({rec.get('experiment', '')})"
+
+
 def well_row(result: WellResult) -> dict[str, str]:
     """One flat row of text cells for a well (CSV and the report's table)."""
     count = result.count or {}
@@ -55,12 +85,7 @@ def well_row(result: WellResult) -> dict[str, str]:
     named = [c.get("formula") or c.get("name") or c.get("smiles") for c in result.candidates if str(c.get("source", "")).startswith("manifest")]
     feature = result.ms_feature or {}
     amount = result.amount or {}
-    amount_text = ""
-    if amount:
-        for key in ("amount_ug", "amount_nmol", "amount", "concentration_mm"):
-            if amount.get(key) is not None:
-                amount_text = f"{_fmt(amount[key])} {key.split('_')[-1] if '_' in key else ''}".strip()
-                break
+    rec = result.recommendation or {}
     return {
         "well": result.well,
         "verdict": result.verdict,
@@ -76,8 +101,17 @@ def well_row(result: WellResult) -> dict[str, str]:
         "best_formula": _fmt(best.get("formula")) if best else "",
         "best_formula_error_ppm": _fmt(best.get("error_ppm")) if best else "",
         "named_candidates": "; ".join(str(n) for n in named if n),
-        "amount": amount_text,
-        "recommendation": _fmt(result.recommendation),
+        "amount": amount_text(amount),
+        "amount_nmol": _num(amount.get("nmol")),
+        "amount_ug": _num(amount.get("ug")),
+        "amount_conc_mM": _num(amount.get("conc_mM")),
+        "amount_uncertainty_pct": _num(amount.get("uncertainty_pct")),
+        "amount_method": _fmt(amount.get("method")),
+        "amount_basis": _fmt(amount.get("basis")),
+        "recommendation": _fmt(rec.get("decision")),
+        "recommendation_experiment": _fmt(rec.get("experiment")),
+        "scans_needed": _fmt(rec.get("scans_needed")),
+        "hours_needed": _num(rec.get("hours_needed")),
         "error": (result.error or "").splitlines()[0] if result.error else "",
         "notes": str((result.spec or {}).get("notes", "")),
         "spectrum_path": _fmt(result.spectrum_path),

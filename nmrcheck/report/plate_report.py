@@ -18,7 +18,7 @@ from nmrcheck import __version__
 from nmrcheck.plate.manifest import layout_named
 from nmrcheck.plate.results import VERDICTS, WellResult
 from nmrcheck.plate.store import DATABASE_NAME, ResultsStore
-from nmrcheck.report.plate_exports import CSV_COLUMNS, well_row, write_csv, write_json
+from nmrcheck.report.plate_exports import CSV_COLUMNS, amount_text, recommendation_text, well_row, write_csv, write_json
 from nmrcheck.report.plate_svg import VERDICT_STYLE, legend_html, plate_map_svg, spectrum_svg, svg_defs
 
 __all__ = ["CAUTIONS", "render_plate_report", "write_plate_report"]
@@ -42,6 +42,7 @@ _TABLE_COLUMNS = (
     ("ms_feature", "MS feature"),
     ("named_candidates", "Named candidates"),
     ("best_formula", "Best formula (MS)"),
+    ("amount", "Amount"),
     ("recommendation", "Recommendation"),
     ("notes", "Notes"),
 )
@@ -187,9 +188,17 @@ def _well_section(result: WellResult, index: int, history_len: int) -> str:
         pairs.append(("MS feature", escape(ions) + (f"; isotopes {escape(', '.join(f'{v:g}' for v in iso))}" if iso else "")
                       + (f"; RT {_fmt(feature.get('rt_min'), 2)} min" if feature.get("rt_min") is not None else "")))
     if result.amount:
-        pairs.append(("Amount", escape(json.dumps(result.amount, default=str)[:400])))
+        a = result.amount
+        text = amount_text(a) + (f" for {a['basis']}" if a.get("basis") else "")
+        per = a.get("per_proton") or {}
+        if per.get("reference"):
+            text += f"; against {per['reference']}"
+        pairs.append(("Amount", escape(text)))
     if result.recommendation:
-        pairs.append(("Recommendation", escape(result.recommendation)))
+        rec = result.recommendation
+        items = "".join(f"<li>{escape(str(r))}</li>" for r in rec.get("reasons") or [])
+        more = f" ({rec['scans_needed']} scans, {rec['hours_needed']:.1f} h for SNR {rec.get('target_snr', 0):g})" if rec.get("scans_needed") and rec.get("hours_needed") is not None else ""
+        pairs.append(("Recommendation", f"{escape(recommendation_text(rec))}{escape(more)}" + (f"<ul>{items}</ul>" if items else "")))
     timing = sum(result.timings.values()) if result.timings else 0.0
     pairs.append(("Run", f"{timing:.2f} s; software {escape(result.software_version)}; options {escape(result.options_hash)}; {history_len} recorded result(s)"))
     out.append(_kv(pairs))

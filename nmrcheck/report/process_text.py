@@ -4,6 +4,8 @@ from __future__ import annotations
 
 from typing import Any
 
+from nmrcheck.report.amount_text import amount_line
+
 __all__ = ["format_processed"]
 
 CAUTION = "Screening aid, not an identification: decisions rest with the responsible chemist."
@@ -33,6 +35,13 @@ def format_processed(summary: dict[str, Any]) -> str:
         if r["flag"]:
             note = f"[{r['flag']}] {r['label'] or ''}".strip()
         lines.append(f"  {r['start_ppm']:8.3f} {r['end_ppm']:8.3f} {r['integral']:12.4g} {h:>8}  {note}")
+    if summary.get("amount"):
+        a = summary["amount"]
+        lines.append("")
+        lines.append(f"amount      per {a['per']}: {amount_line(a, summary['recommendation'])}")
+        lines.append(f"            against {a['reference']}")
+        for w in a["warnings"]:
+            lines.append(f"warning: {w}")
     for w in summary["warnings"]:
         lines.append(f"warning: {w}")
     lines.append("")

@@ -9,14 +9,25 @@ it but not trusted, since on real spectra it can be off by a whole factor.
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 from functools import lru_cache
 
 import numpy as np
 
 from nmrcheck.data import load_table
-from nmrcheck.validate import _hydrogens as hyd
+from nmrcheck.errors import CandidateError
+from nmrcheck.predict import (
+    SHIFT_REGIONS,
+    SOLVENTS as EXCHANGE_SOLVENTS,
+    Environment,
+    VisibleHydrogens,
+    exchangeable_hydrogens,
+    expected_visible_h,
+    group_environments,
+    predict_shifts,
+    region_of,
+    solvent_exchange_rules,
+)
 from nmrcheck.validate.records import Candidate, CheckResult, Evidence
 
 __all__ = [
@@ -24,6 +35,8 @@ __all__ = [
     "CountFit",
     "fit_count",
     "expected_visible",
+    "visible_h",
+    "h_environments",
     "check_mass",
     "check_isotopes",
     "check_proton_count",
@@ -53,6 +66,42 @@ WEIGHTS = {"mass": 3.0, "isotopes": 1.5, "proton count": 3.0, "unsaturation": 2.
 
 def _na(name: str, why: str) -> CheckResult:
     return CheckResult(name, "not-applicable", "-", "-", why, WEIGHTS[name])
+
+
+# ----------------------------------------------------------------------------- hydrogens (nmrcheck.predict)
+
+
+def _exchange_solvent(evidence: Evidence) -> str | None:
+    """The evidence's solvent when the exchange table covers it; None means 'any exchangeable H may or may not be seen'."""
+    return evidence.solvent if evidence.solvent in EXCHANGE_SOLVENTS else None
+
+
+def visible_h(candidate: Candidate, evidence: Evidence) -> VisibleHydrogens:
+    """(min, max, carbon-bound, exchangeable) H the candidate's structure or formula shows in the evidence's solvent."""
+    target = candidate.mol if candidate.mol is not None else dict(candidate.formula.counts)
+    return expected_visible_h(target, _exchange_solvent(evidence))
+
+
+def h_environments(candidate: Candidate) -> tuple[Environment, ...]:
+    """Predicted shift of each environment of equivalent hydrogens of the candidate's structure (empty for a formula).
+
+    Raises
+    ------
+    CandidateError
+        When the structure cannot be perceived by the shift rules.
+    """
+    if candidate.mol is None:
+        return ()
+    return group_environments(predict_shifts(candidate.mol))
+
+
+def _surely_seen(env: Environment, solvent: str | None) -> bool:
+    """True for carbon-bound H, and for exchangeable H whose class is always seen in ``solvent``."""
+    if not env.exchangeable:
+        return True
+    if solvent is None or env.h_class is None:
+        return False
+    return solvent_exchange_rules(solvent)[env.h_class].visible == "yes"
 
 
 def nmr_usable(evidence: Evidence) -> str | None:
@@ -170,8 +219,12 @@ def _hidden_under_flagged(candidate: Candidate, evidence: Evidence) -> int:
     """Carbon-bound H a structure predicts inside solvent/water/standard regions (they are not counted)."""
     if candidate.mol is None or not evidence.flagged:
         return 0
+    try:
+        envs = h_environments(candidate)
+    except CandidateError:
+        return 0
     n = 0
-    for g in hyd.predict_groups(candidate.mol):
+    for g in envs:
         if g.exchangeable:
             continue
         for start, end, _ in evidence.flagged:
@@ -185,7 +238,7 @@ def expected_visible(candidate: Candidate, evidence: Evidence) -> tuple[int, int
     """(least, most) H the candidate should show in this spectrum, and a phrase saying why."""
     solvent = evidence.solvent or "unknown"
     if candidate.mol is not None:
-        lo, hi, ch, xh = hyd.visible_h_range(candidate.mol, evidence.solvent)
+        lo, hi, ch, xh = visible_h(candidate, evidence)
         hidden = _hidden_under_flagged(candidate, evidence)
         why = f"{ch} carbon-bound H"
         if xh:
@@ -193,7 +246,7 @@ def expected_visible(candidate: Candidate, evidence: Evidence) -> tuple[int, int
         if hidden:
             why += f"; up to {hidden} may hide under the solvent/water signal"
         return max(1, lo - hidden), hi, why
-    lo, hi, bound = hyd.formula_visible_h_range(candidate.formula)
+    lo, hi, _, bound = visible_h(candidate, evidence)
     why = f"{hi} H in the formula, of which up to {bound} could be exchangeable (from its heteroatoms)"
     return max(1, lo), hi, why
 
@@ -256,14 +309,11 @@ def _unsaturation_rules() -> dict[str, tuple[float, float, float, int, str]]:
 
 def _exchangeable_allowances(candidate: Candidate, evidence: Evidence) -> tuple[int, int]:
     """(NH that could sit among aromatic signals, all exchangeable H that could be visible)."""
+    lo, hi, ch, bound = visible_h(candidate, evidence)
     if candidate.mol is not None:
-        lo, hi, ch, xh = hyd.visible_h_range(candidate.mol, evidence.solvent)
-        groups = hyd.exchangeable_groups(candidate.mol)
-        nh = groups.get("amide", 0) + groups.get("amine", 0) if hi > ch else 0
+        nh = sum(s.n_h for s in exchangeable_hydrogens(candidate.mol) if s.element == "N") if hi > ch else 0
         return nh, hi - ch
-    f = candidate.formula
-    _, _, bound = hyd.formula_visible_h_range(f)
-    return min(bound, f.count("N")), bound
+    return min(bound, candidate.formula.count("N")), bound
 
 
 def required_rdbe(candidate: Candidate, evidence: Evidence, fit: CountFit) -> tuple[int, list[str]]:
@@ -322,41 +372,39 @@ def check_unsaturation(candidate: Candidate, evidence: Evidence) -> CheckResult:
 # ----------------------------------------------------------------------------- shifts
 
 
-@lru_cache(maxsize=None)
-def shift_classes() -> tuple[tuple[str, float, float], ...]:
-    return tuple((r["region"], float(r["low_ppm"]), float(r["high_ppm"])) for r in load_table("validate_shift_classes"))
-
-
 def _class_of(ppm: float) -> str:
-    for name, low, high in shift_classes():
-        if low <= ppm < high:
-            return name
-    return shift_classes()[0][0] if ppm < shift_classes()[0][1] else shift_classes()[-1][0]
+    """The shift region (nmrcheck.predict's, shared with the predictor) of ``ppm``; shifts beyond the ends go to the end regions."""
+    low, high = SHIFT_REGIONS[0].low_ppm, SHIFT_REGIONS[-1].high_ppm
+    return region_of(min(max(float(ppm), low), high))
 
 
 def visible_groups(candidate: Candidate, evidence: Evidence):
     """Predicted H groups the candidate should show here (exchangeable ones only where they are surely seen)."""
-    vis = hyd._visibility(evidence.solvent)
-    out = []
-    for g in hyd.predict_groups(candidate.mol):
-        if g.exchangeable:
-            lo, _ = vis.get(g.kind, vis.get("any", vis.get("other", (0.0, 1.0))))
-            if lo < 1:
-                continue
-        out.append(g)
-    return tuple(out)
+    solvent = _exchange_solvent(evidence)
+    return tuple(g for g in h_environments(candidate) if _surely_seen(g, solvent))
+
+
+def _structure_fit(name: str, candidate: Candidate, evidence: Evidence, bare: str) -> CheckResult | tuple[CountFit, tuple[Environment, ...]]:
+    """(best count, visible predicted groups) for a check that needs a structure, or its not-applicable result."""
+    if candidate.mol is None:
+        return _na(name, bare)
+    fit = best_fit(candidate, evidence)
+    if fit is None:
+        return _na(name, nmr_usable(evidence) or "no count")
+    try:
+        return fit, visible_groups(candidate, evidence)
+    except CandidateError as exc:
+        return _na(name, f"no shift prediction for this structure: {exc}")
 
 
 def check_shift_regions(candidate: Candidate, evidence: Evidence) -> CheckResult:
     """Predicted shift distribution of a structure against the observed integrals (counts per region, EMD per H)."""
-    if candidate.mol is None:
-        return _na("shift regions", "a bare formula predicts no shifts")
-    fit = best_fit(candidate, evidence)
-    if fit is None:
-        return _na("shift regions", nmr_usable(evidence) or "no count")
+    got = _structure_fit("shift regions", candidate, evidence, "a bare formula predicts no shifts")
+    if isinstance(got, CheckResult):
+        return got
+    fit, groups = got
     from scipy.stats import wasserstein_distance
 
-    groups = visible_groups(candidate, evidence)
     if not groups:
         return _na("shift regions", "no hydrogens expected to be visible")
     obs = [(r.peak_ppm, h) for r, h, w in zip(evidence.regions, fit.h, fit.whole) if w > 0]
@@ -369,13 +417,13 @@ def check_shift_regions(candidate: Candidate, evidence: Evidence) -> CheckResult
         pred_counts[_class_of(g.ppm)] = pred_counts.get(_class_of(g.ppm), 0) + g.n_h
     for p, h in obs:
         obs_counts[_class_of(p)] = obs_counts.get(_class_of(p), 0) + h
-    names = [n for n, _, _ in shift_classes() if n in pred_counts or n in obs_counts]
+    names = [r.name for r in SHIFT_REGIONS if r.name in pred_counts or r.name in obs_counts]
     worst = max(names, key=lambda n: abs(pred_counts.get(n, 0) - obs_counts.get(n, 0)))
     diff = obs_counts.get(worst, 0) - pred_counts.get(worst, 0)
     status = "pass" if emd <= EMD_PASS_PPM else "warn" if emd <= EMD_WARN_PPM else "fail"
     observed = ", ".join(f"{n} {obs_counts.get(n, 0):.1f}" for n in names)
     expected = ", ".join(f"{n} {pred_counts.get(n, 0):.0f}" for n in names)
-    text = f"predicted shifts ({hyd.predictor_name()}) sit on average {emd:.2f} ppm per H from the observed signals"
+    text = f"predicted shifts (nmrcheck.predict) sit on average {emd:.2f} ppm per H from the observed signals"
     if abs(diff) >= 0.7:
         text += f"; largest difference: {worst} region holds {obs_counts.get(worst, 0):.1f} H where {pred_counts.get(worst, 0):.0f} are expected"
     return CheckResult("shift regions", status, observed, expected, text, WEIGHTS["shift regions"], {"emd_ppm": emd})
@@ -383,12 +431,11 @@ def check_shift_regions(candidate: Candidate, evidence: Evidence) -> CheckResult
 
 def check_signal_count(candidate: Candidate, evidence: Evidence) -> CheckResult:
     """Distinct H environments of a structure against resolved signal groups (warn only: overlap is common)."""
-    if candidate.mol is None:
-        return _na("signal count", "a bare formula has no environments to count")
-    fit = best_fit(candidate, evidence)
-    if fit is None:
-        return _na("signal count", nmr_usable(evidence) or "no count")
-    expected = len(visible_groups(candidate, evidence))
+    got = _structure_fit("signal count", candidate, evidence, "a bare formula has no environments to count")
+    if isinstance(got, CheckResult):
+        return got
+    fit, groups = got
+    expected = len(groups)
     seen = sum(1 for w in fit.whole if w > 0)
     if seen > expected + 1:
         return CheckResult(

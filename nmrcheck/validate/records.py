@@ -126,6 +126,17 @@ class CandidateVerdict:
     def check(self, name: str) -> CheckResult | None:
         return next((c for c in self.checks if c.name == name), None)
 
+    def counted_h(self, evidence: Evidence, *, exclude_ppm: tuple[float, float] | None = None) -> int | None:
+        """Whole protons the candidate's anchored count gives the evidence's regions, leaving out those
+        overlapping ``exclude_ppm`` (e.g. an internal standard's range); None without a count."""
+        check = self.check("proton count")
+        whole = check.details.get("whole") if check is not None else None
+        if not whole:
+            return None
+        hi, lo = (max(exclude_ppm), min(exclude_ppm)) if exclude_ppm else (None, None)
+        n = sum(w for r, w in zip(evidence.regions, whole) if hi is None or not (r.end_ppm < hi and r.start_ppm > lo))
+        return n or None
+
     def as_dict(self) -> dict[str, Any]:
         c = self.candidate
         from rdkit import Chem

@@ -33,7 +33,7 @@ def test_fields_are_parsed(tmp_path):
     assert w.isotopes == (100.0, 11.2) and w.rt_min == 4.5
     assert w.formulas == ("C10H14O",)  # the file's duplicate formula is kept once
     assert ("eugenol", "COc1cc(CC=C)ccc1O") in w.structures and ("thymol", "Cc1ccc(C(C)C)c(O)c1") in w.structures
-    assert w.solvent == "DMSO-d6"  # alias table nmrcheck/data/solvent_names.csv
+    assert w.solvent == "DMSO-d6"  # alias table nmrcheck/data/solvent_aliases.csv
     assert w.notes == "a, b"
 
 

@@ -19,7 +19,6 @@ TABLES = [
     "exchangeable_classes",
     "shift_regions",
     "solvent_exchange",
-    "solvent_aliases",
 ]
 
 

@@ -74,6 +74,18 @@ def test_exports_hold_the_same_results(report):
     doc = json.loads((out / "results.json").read_text(encoding="utf-8"))
     assert {w["well"]: w["verdict"] for w in doc["wells"]} == {w: r.verdict for w, r in current.items()}
     assert doc["run"]["status"] == "complete"
+    # Amount and go/no-go: in every export for each well that has them, the same figures.
+    with_amount = {w: r for w, r in current.items() if r.amount}
+    assert with_amount, "the demo wells are quantified against their residual solvent line"
+    by_well = {r["well"]: r for r in rows}
+    json_wells = {w["well"]: w for w in doc["wells"]}
+    html = (out / "report.html").read_text(encoding="utf-8")
+    for w, r in with_amount.items():
+        assert float(by_well[w]["amount_nmol"]) == pytest.approx(r.amount["nmol"], rel=1e-3)
+        assert by_well[w]["recommendation"] == r.recommendation["decision"]
+        assert json_wells[w]["amount"]["nmol"] == r.amount["nmol"]
+        assert json_wells[w]["recommendation"]["decision"] == r.recommendation["decision"]
+        assert by_well[w]["amount"] in html
 
 
 def _chromium():

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import pytest
 
 from nmrcheck.chem.adducts import ion_mz
@@ -19,8 +21,8 @@ from nmrcheck.validate import (
     check_unsaturation,
     fit_count,
 )
-from nmrcheck.validate._hydrogens import formula_visible_h_range, visible_h_range
 from nmrcheck.io.structures import mol_from_smiles
+from nmrcheck.validate.checks import expected_visible, visible_h
 
 
 def _estragole_evidence(ms=True, snr=500.0, solvent="CDCl3"):
@@ -102,7 +104,7 @@ def test_ranking_ties_share_a_rank():
 @pytest.mark.parametrize(
     "smiles,solvent,expected",
     [
-        # Ethanol C2H6O: 5 carbon-bound H, one OH (exchange table exchange_visibility.csv, common practice).
+        # Ethanol C2H6O: 5 carbon-bound H, one OH (exchange table solvent_exchange.csv, common practice).
         ("CCO", "D2O", (5, 5)),
         ("CCO", "CD3OD", (5, 5)),
         ("CCO", "DMSO-d6", (6, 6)),
@@ -110,13 +112,19 @@ def test_ranking_ties_share_a_rank():
         ("CCO", "acetone-d6", (5, 6)),
         # Acetic acid: COOH may be lost even in DMSO-d6 (common practice).
         ("CC(=O)O", "DMSO-d6", (3, 4)),
+        # A solvent the exchange table does not cover (THF-d8) or none: the OH may or may not be seen.
+        ("CCO", "THF-d8", (5, 6)),
+        ("CCO", None, (5, 6)),
     ],
 )
 def test_exchangeable_visibility_per_solvent(smiles, solvent, expected):
-    mol, _ = mol_from_smiles(smiles)
-    assert visible_h_range(mol, solvent)[:2] == expected
+    evidence = _estragole_evidence(solvent=solvent)
+    assert visible_h(_cand(smiles), evidence)[:2] == expected
+    assert expected_visible(_cand(smiles), replace(evidence, flagged=()))[:2] == expected
 
 
 def test_formula_exchangeable_bound_from_heteroatoms():
     """C9H19NO4: 4 O (one H each) and N (two H) bound the exchangeable H at 6 (valence rule, from memory)."""
-    assert formula_visible_h_range(parse_formula("C9H19NO4")) == (13, 19, 6)
+    c = Candidate("C9H19NO4", parse_formula("C9H19NO4"))
+    lo, hi, _, bound = visible_h(c, _estragole_evidence())
+    assert (lo, hi, bound) == (13, 19, 6)

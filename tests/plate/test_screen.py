@@ -1,0 +1,92 @@
+"""One well screened: its amount against the residual solvent signal and the go/no-go, in the result and the exports.
+
+The recordings are synthetic (nmrcheck.synth) with known composition: methyl tert-butyl ether
+(1.19 ppm 9 H, 3.22 ppm 3 H; textbook values, from memory) at 80 nmol in 35 uL CDCl3 of
+99.96 atom % D, whose residual CHCl3 line (7.26 ppm) holds the protons that lot leaves:
+1.500 g/mL (CRC Handbook, from memory) x 35 uL / M(CDCl3) (RDKit, deuterium mass) x 0.04 %.
+A line's area is its protons times the amount times ``UNIT``.
+"""
+
+from __future__ import annotations
+
+import csv
+import json
+
+import pytest
+from rdkit import Chem
+from rdkit.Chem import Descriptors
+
+from nmrcheck.io.writers import write_bruker_fid
+from nmrcheck.plate import read_manifest
+from nmrcheck.plate.screen import ScreenOptions, screen_well
+from nmrcheck.report.plate_exports import write_csv, write_json
+from nmrcheck.report.plate_report import render_plate_report
+from nmrcheck.synth import Line, simulate_fid
+
+UNIT = 0.01
+NMOL = 80.0
+VOLUME_UL = 35.0
+RESIDUAL_NMOL_H = 1.500 * VOLUME_UL * 1e-3 / Descriptors.MolWt(Chem.MolFromSmiles("[2H]C(Cl)(Cl)Cl")) * 0.0004 * 1e9
+OPTIONS = ScreenOptions(solvent_volume_ul=VOLUME_UL, deuteration_pct=99.96)
+
+
+@pytest.fixture(scope="module")
+def plate(tmp_path_factory):
+    root = tmp_path_factory.mktemp("screen")
+    lines = [Line(1.19, 9 * NMOL * UNIT), Line(3.22, 3 * NMOL * UNIT), Line(7.26, RESIDUAL_NMOL_H * UNIT)]
+    for k, well in enumerate(("A1", "A2")):
+        write_bruker_fid(simulate_fid(lines, noise=0.002, solvent="CDCl3", seed=k), root / "fids" / well)
+    (root / "manifest.csv").write_text("well,spectrum,formulas\nA1,fids/{well},C5H12O\nA2,fids/{well},\n", encoding="utf-8")
+    return read_manifest(root / "manifest.csv")
+
+
+@pytest.fixture(scope="module")
+def results(plate):
+    return {w.well: screen_well(w, plate.directory, OPTIONS) for w in plate.wells}
+
+
+def test_amount_of_the_manifest_candidate(results):
+    r = results["A1"]
+    assert r.status == "done", r.error
+    a = r.amount
+    assert a["basis"] == "C5H12O (12 H)"  # the candidate's own count: 9 + 3 C-H
+    # Measured 81.7 nmol: two low baseline humps beside the 9 H singlet count as analyte (0.3 H each).
+    assert a["nmol"] == pytest.approx(NMOL, rel=0.03)
+    assert a["ug"] == pytest.approx(NMOL * Descriptors.MolWt(Chem.MolFromSmiles("COC(C)(C)C")) * 1e-3, rel=0.03)
+    assert a["conc_mM"] == pytest.approx(NMOL / VOLUME_UL, rel=0.03)
+    assert a["method"] == "solvent residual" and a["uncertainty_pct"] == pytest.approx(20.0, abs=0.5)
+    # 80 nmol less twice 20 % is 48 nmol: above the 30 nmol an HSQC needs (recommendation_defaults.csv).
+    rec = r.recommendation
+    assert rec["decision"] == "go" and rec["experiment"] == "1H-13C HSQC"
+    assert rec["reasons"] and rec["scans_needed"] >= 1
+
+
+def test_amount_without_a_candidate_is_per_proton_unit(results):
+    r = results["A2"]
+    a = r.amount
+    assert a["basis"].startswith("per ") and a["ug"] is None
+    # Whatever unit the count chose, the protons integrated are MTBE's 12 x 80 nmol.
+    assert a["details"]["nmol_h"] == pytest.approx(12 * NMOL, rel=0.03)
+    assert r.recommendation["decision"] in {"go", "borderline", "no-go"}
+
+
+def test_next_experiment_sets_the_threshold(plate):
+    """HMBC needs 100 nmol to go, 30 for borderline (recommendation_defaults.csv): 80 nmol is borderline."""
+    r = screen_well(plate.well("A1"), plate.directory, ScreenOptions(solvent_volume_ul=VOLUME_UL, deuteration_pct=99.96, next_experiment="1H-13C HMBC"))
+    assert r.recommendation["decision"] == "borderline"
+
+
+def test_exports_and_report_show_amount_and_recommendation(results, tmp_path):
+    with open(write_csv(results.values(), tmp_path / "r.csv"), encoding="utf-8", newline="") as fh:
+        rows = {r["well"]: r for r in csv.DictReader(fh)}
+    a1 = rows["A1"]
+    assert float(a1["amount_nmol"]) == pytest.approx(results["A1"].amount["nmol"], rel=1e-3)
+    assert float(a1["amount_ug"]) == pytest.approx(results["A1"].amount["ug"], rel=1e-3)
+    assert a1["amount_method"] == "solvent residual" and a1["amount_basis"] == "C5H12O (12 H)"
+    assert "nmol" in a1["amount"] and a1["recommendation"] == "go" and a1["recommendation_experiment"] == "1H-13C HSQC"
+    doc = json.loads(write_json(results.values(), tmp_path / "r.json").read_text(encoding="utf-8"))
+    well = next(w for w in doc["wells"] if w["well"] == "A1")
+    assert well["amount"]["nmol"] == results["A1"].amount["nmol"] and well["recommendation"]["decision"] == "go"
+    html = render_plate_report(results)
+    assert a1["amount"] in html and "go (1H-13C HSQC)" in html
+    assert "reaches the 30 nmol" in html  # the reason, from the recommendation
