@@ -17,7 +17,7 @@ from nmrcheck.processing.phase import apply_phase, auto_phase
 from nmrcheck.processing.reference import reference_axis
 from nmrcheck.processing.regions import find_regions
 from nmrcheck.processing.results import PhaseCorrection, Processed
-from nmrcheck.processing.solvents import normalise_solvent
+from nmrcheck.processing.solvents import AQUEOUS, normalise_solvent
 from nmrcheck.processing.spectrum import ProcessingStep, Spectrum
 from nmrcheck.processing.transform import fourier_transform, spectrum_from_file
 
@@ -65,7 +65,7 @@ def _suppression_ranges(spectrum: Spectrum, options: ProcessingOptions) -> list[
     prog = (acq.pulse_program or "").lower()
     solvent = normalise_solvent(options.solvent or acq.solvent)
     presat = "pr" in prog or "wg" in prog or "es" in prog.replace("noes", "")
-    if not presat and solvent != "D2O":
+    if not presat and solvent not in AQUEOUS:
         return []
     if presat:
         # The carrier sits on the suppressed line; its ppm on this axis:

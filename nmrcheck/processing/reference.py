@@ -6,7 +6,7 @@ import numpy as np
 
 from nmrcheck.processing.noise import noise_level
 from nmrcheck.processing.results import Reference
-from nmrcheck.processing.solvents import normalise_solvent, solvent_signals
+from nmrcheck.processing.solvents import AQUEOUS, normalise_solvent, solvent_signals
 from nmrcheck.processing.spectrum import ProcessingStep, Spectrum
 
 __all__ = ["find_peak", "reference_axis"]
@@ -140,7 +140,7 @@ def reference_axis(
         # HDO moves with temperature and is distorted by presaturation: never let it
         # overrule DSS.
         s_std, s_res = standard[2] - standard[3], residual[2] - residual[3]
-        if name != "D2O" and abs(s_std - s_res) > 0.03 and abs(s_res) < abs(s_std):
+        if name not in AQUEOUS and abs(s_std - s_res) > 0.03 and abs(s_res) < abs(s_std):
             found = residual
     if found is None:
         return spectrum, Reference("none", f"none (no reference signal found for {name})", spectrum.first_ppm, None, "")

@@ -10,7 +10,11 @@ from functools import lru_cache
 from nmrcheck.data import load_table
 from nmrcheck.errors import ParameterError, TableError
 
-__all__ = ["SolventSignal", "normalise_solvent", "require_solvent", "solvent_signals", "known_solvents"]
+__all__ = ["AQUEOUS", "SolventSignal", "normalise_solvent", "require_solvent", "solvent_signals", "known_solvents"]
+
+#: Water-based solvents: HDO moves with temperature and is distorted by suppression, so it
+#: never overrules an internal standard, and the water band is left out when counting.
+AQUEOUS = frozenset({"D2O", "H2O/D2O"})
 
 
 @dataclass(frozen=True)
