@@ -37,6 +37,8 @@ class ProcessingOptions:
     rephase_processed: bool = False
     """Re-phase a spectrum read already processed (normally kept as the instrument left it)."""
     baseline: str = "fabc"
+    baseline_smoothness_hz: float = 200.0
+    """Shortest baseline undulation the baseline correction follows, Hz."""
     reference: str = "auto"
     threshold_snr: float = 6.0
     margin_hz: float = 8.0
@@ -125,7 +127,7 @@ def process(source: Fid | SpectrumFile | str | os.PathLike, options: ProcessingO
         spec, phase = auto_phase(spec, exclude_ppm=exclude)
         if phase.peaks_used == 0:
             warnings.append("no peak above noise to phase on; spectrum left unphased")
-    spec = correct_baseline(spec, method=opts.baseline)
+    spec = correct_baseline(spec, method=opts.baseline, smoothness_hz=opts.baseline_smoothness_hz)
     spec, ref = reference_axis(spec, solvent=opts.solvent, prefer=opts.reference)
     if ref.kind == "none":
         warnings.append(f"axis not referenced: {ref.name}")

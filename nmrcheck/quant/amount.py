@@ -210,7 +210,10 @@ def _standard_signal(processed: Processed, std: StandardReference, warnings: lis
         if li.peak_height < MIN_REFERENCE_HEIGHT * noise or li.integral <= 0:
             problems.append(f"{where}: missing (peak {li.peak_height / noise:.1f} x noise, below {MIN_REFERENCE_HEIGHT:g})")
             continue
-        margin = 3.0 / spec.spectrometer_mhz
+        # Processing widens every region by its margin beyond the last point above noise;
+        # a region reaching only that far past the range is the standard's own.
+        region_margin_hz = next((float(st.params.get("margin_hz", 0.0)) for st in spec.history if st.name == "integrate"), 0.0)
+        margin = (3.0 + region_margin_hz) / spec.spectrometer_mhz
         overlaps = _overlapping_regions(processed, li.start_ppm, li.end_ppm, margin)
         extra = _extra_peaks(processed, li)
         if _edge_problem(li, noise):

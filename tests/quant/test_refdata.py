@@ -56,9 +56,17 @@ def test_glucose_against_dss_within_15_percent(mix):
     assert cand.ug == pytest.approx(total * 180.156 / 1000.0, rel=1e-3)  # RDKit average mass of C6H12O6
 
 
-@pytest.mark.xfail(reason="presaturation 270 Hz from water and a 2.7 s repetition keep the anomeric route about 12 % low", strict=True)
 def test_glucose_against_dss_within_10_percent(mix):
+    """The issue's goal on the instrument's processed spectrum (measured: 94 % of nominal)."""
     _, total = _glucose(mix)
+    assert total == pytest.approx(GLUCOSE_NOMINAL_NMOL, rel=0.10)
+
+
+def test_glucose_against_dss_from_the_raw_fid(refdata):
+    """The same route on nmrcheck's own processing of the raw FID (measured: 100 % of nominal)."""
+    from nmrcheck.processing import process
+
+    _, total = _glucose(process(refdata / "bruker-raw" / "aminoacid-mix-undried-1"))
     assert total == pytest.approx(GLUCOSE_NOMINAL_NMOL, rel=0.10)
 
 
