@@ -13,7 +13,10 @@ from nmrcheck.errors import ParameterError
 from nmrcheck.io.records import Fid, SpectrumFile
 from nmrcheck.processing.spectrum import ProcessingStep, Spectrum
 
-__all__ = ["fourier_transform", "next_size", "spectrum_from_file"]
+__all__ = ["fourier_transform", "next_size", "spectrum_from_file", "DEFAULT_MAX_SIZE"]
+
+#: Largest spectrum the default zero-filling makes (points).
+DEFAULT_MAX_SIZE = 65536
 
 
 def next_size(points: int) -> int:
@@ -39,13 +42,17 @@ def fourier_transform(
         Lorentz-to-Gauss resolution enhancement).
     size : int, optional
         Points after zero-filling (complex); default: twice the FID rounded up to
-        a power of two.
+        a power of two, capped at ``DEFAULT_MAX_SIZE`` (longer FIDs are transformed
+        at their own length).
     gauss_hz : float
         Gaussian broadening, Hz (0: none).
     """
     n = fid.size
     if size is None:
-        size = next_size(2 * n)
+        # Twice the FID (one zero-fill), but no more than DEFAULT_MAX_SIZE unless the FID
+        # itself is longer: at 64k points the digital resolution (about 0.1 Hz for a
+        # 12 ppm window at 600 MHz) is already far below any line width.
+        size = max(next_size(n), min(next_size(2 * n), DEFAULT_MAX_SIZE))
     if not isinstance(size, (int, np.integer)) or size < 16:
         raise ParameterError(f"size: must be a whole number of points >= 16, got {size!r}")
     if size < n:
