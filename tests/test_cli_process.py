@@ -44,9 +44,9 @@ def test_exports(experiment, tmp_path):
     result = CliRunner().invoke(main, ["process", str(experiment), "--size", "32768", "--lb", "1.0",
                                        "--save-spectrum", str(npz), "--plot", str(png)])
     assert result.exit_code == 0, result.output
-    z = np.load(npz)
-    assert z["ppm"].size == z["real"].size == z["imag"].size == 32768
-    assert z["ppm"][0] > z["ppm"][-1]  # high ppm first, as instrument software stores spectra
+    with np.load(npz) as z:
+        assert z["ppm"].size == z["real"].size == z["imag"].size == 32768
+        assert z["ppm"][0] > z["ppm"][-1]  # high ppm first, as instrument software stores spectra
     assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     assert "Screening aid, not an identification" in result.output
 
