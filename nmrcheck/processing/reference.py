@@ -14,6 +14,8 @@ __all__ = ["find_peak", "reference_axis"]
 #: A singlet reference line has no partner of comparable height within the range of
 #: common 1H-1H couplings (up to about 18 Hz geminal/trans; common practice).
 SINGLET_ISOLATION_HZ = 18.0
+#: How close to its table value a residual line that is not isolated is accepted, ppm.
+CLOSE_PPM = 0.03
 
 
 def _half_width_hz(spectrum: Spectrum, i: int) -> float:
@@ -127,10 +129,23 @@ def reference_axis(
     residual = None
     if prefer in ("auto", "solvent"):
         for sig in sorted(solvent_signals(name, kind="residual"), key=lambda s: -s.ppm):
-            at = find_peak(spectrum, sig.ppm, window_ppm=search_ppm, min_snr=5.0, max_width_hz=sharp,
-                           isolated_hz=None if sig.multiplicity != "s" else SINGLET_ISOLATION_HZ)
+            singlet = sig.multiplicity == "s"
+            label = f"{sig.name} in {name}"
+            at = None
+            # Nearest first: an isolated singlet very close to the table value, then any sharp
+            # line that close (the residual inside an analyte multiplet is not isolated), then
+            # isolated singlets further out (the spectrometer's own axis may be a few tenths off).
+            for window, isolated in ((CLOSE_PPM, True), (CLOSE_PPM, False), (search_ppm, True)):
+                if not singlet and not isolated:
+                    continue
+                at = find_peak(spectrum, sig.ppm, window_ppm=window, min_snr=5.0, max_width_hz=sharp,
+                               isolated_hz=SINGLET_ISOLATION_HZ if (singlet and isolated) else None)
+                if at is not None:
+                    if singlet and not isolated:
+                        label += " (beside analyte lines)"
+                    break
             if at is not None:
-                residual = ("solvent", f"{sig.name} in {name}", sig.ppm, at, sig.source, sig.name)
+                residual = ("solvent", label, sig.ppm, at, sig.source, sig.name)
                 break
     found = standard or residual
     if standard and residual:
