@@ -86,11 +86,15 @@ COMPOUNDS: dict[str, Compound] = {
 }
 
 # Residual solvent line (ppm, relative size, width Hz) and water (ppm, relative size, width Hz):
-# positions as in nmrcheck/data/solvents.csv.
+# positions as in nmrcheck/data/solvents.csv. Sizes are in protons of a well at amount 1
+# (about 30 nmol of compound): 35 uL of 99.8 % D solvent hold about 870 nmol of residual H
+# in CDCl3 and about 5 umol in CD3OD or DMSO-d6 (density x volume / molar mass x 0.2 % x
+# the D positions; densities as in nmrcheck/data/quant_solvents.csv), so the residual line
+# towers over a microgram compound's signals, as it does in a real micro-probe spectrum.
 _SOLVENT_LINES = {
-    "CDCl3": ((7.26, 0.25, 1.0), (1.56, 0.8, 4.0)),
-    "CD3OD": ((3.31, 0.30, 1.0), (4.87, 2.5, 5.0)),
-    "DMSO-d6": ((2.50, 0.30, 1.0), (3.33, 3.0, 6.0)),
+    "CDCl3": ((7.26, 29.0, 1.0), (1.56, 0.8, 4.0)),
+    "CD3OD": ((3.31, 170.0, 1.0), (4.87, 2.5, 5.0)),
+    "DMSO-d6": ((2.50, 195.0, 1.0), (3.33, 3.0, 6.0)),
 }
 
 
@@ -147,7 +151,13 @@ def _fid_for(well: DemoWell, *, points: int, seed: int):
     lines = list(compound.lines) if well.content else []
     lines = [Line(ln.ppm, ln.h * well.amount, ln.width_hz, ln.j_hz) for ln in lines]
     (res_ppm, res_h, res_w), (w_ppm, w_h, w_w) = _SOLVENT_LINES[solvent]
-    lines.append(Line(res_ppm, res_h * float(rng.uniform(0.7, 1.4)), res_w))
+    res_h *= float(rng.uniform(0.7, 1.4))
+    if solvent == "CDCl3":
+        lines.append(Line(res_ppm, res_h, res_w))
+    else:
+        # CHD2 groups: a 1:2:3:2:1 quintet from two deuterons, J(H,D) about 1.8 Hz (common practice).
+        for k, weight in enumerate((1, 2, 3, 2, 1)):
+            lines.append(Line(res_ppm + (k - 2) * 1.8 / 600.13, res_h * weight / 9.0, res_w))
     lines.append(Line(w_ppm, w_h * float(rng.uniform(0.5, 1.5)), w_w))
     if well.tms:
         lines.append(Line(0.0, 0.6, 0.8))

@@ -42,7 +42,7 @@ def bruker_recordings() -> list[str]:
 
 # A synthetic 24-well plate, shared by the plate and report tests so it is built and screened once:
 # the demo plate's first 22 wells, its empty well (B11) and its truncated recording (C12), small FIDs.
-PLATE_POINTS = 8192
+PLATE_POINTS = 16384
 
 
 def plate_wells():

@@ -42,6 +42,8 @@ class ProcessingOptions:
     reference: str = "auto"
     threshold_snr: float = 6.0
     margin_hz: float = 8.0
+    min_integral_sigma: float = 5.0
+    """Smallest integral, in standard deviations of its own noise, that is counted."""
     merge_hz: float = 6.0
     anchor_h: int | None = None
     suppression_halfwidth_ppm: float = 0.25
@@ -149,11 +151,18 @@ def process(source: Fid | SpectrumFile | str | os.PathLike, options: ProcessingO
         reference_line=ref.line,
     )
     count = None
+    sigmas = []
+    for r in regions:
+        sl = spec.slice_of(r.start_ppm, r.end_ppm)
+        sigmas.append(noise * spec.step_ppm * np.sqrt(max(1, sl.stop - sl.start)))
+    # A region whose integral does not stand clear of its own integration noise is not
+    # counted (a few points above the threshold on a noise spike or a wiggle).
+    regions = tuple(
+        replace(r, flag="noise", label=f"integral under {opts.min_integral_sigma:g} sigma of its noise")
+        if r.counted and r.integral < opts.min_integral_sigma * sg else r
+        for r, sg in zip(regions, sigmas)
+    )
     if any(r.counted for r in regions):
-        sigmas = []
-        for r in regions:
-            sl = spec.slice_of(r.start_ppm, r.end_ppm)
-            sigmas.append(noise * spec.step_ppm * np.sqrt(max(1, sl.stop - sl.start)))
         regions, count = count_protons(regions, integral_sigma=sigmas, anchor_h=opts.anchor_h)
     else:
         warnings.append("no analyte signal above the noise threshold")

@@ -14,6 +14,9 @@ __all__ = ["find_peak", "reference_axis"]
 #: A singlet reference line has no partner of comparable height within the range of
 #: common 1H-1H couplings (up to about 18 Hz geminal/trans; common practice).
 SINGLET_ISOLATION_HZ = 18.0
+#: Extra half-height width allowed for the centre line of a residual multiplet (H-D couplings
+#: of about 2 Hz), Hz.
+MULTIPLET_EXTRA_WIDTH_HZ = 8.0
 #: How close to its table value a residual line that is not isolated is accepted, ppm.
 CLOSE_PPM = 0.03
 
@@ -138,7 +141,9 @@ def reference_axis(
             for window, isolated in ((CLOSE_PPM, True), (CLOSE_PPM, False), (search_ppm, True)):
                 if not singlet and not isolated:
                     continue
-                at = find_peak(spectrum, sig.ppm, window_ppm=window, min_snr=5.0, max_width_hz=sharp,
+                # The centre line of a CHD2 quintet merges with its neighbours at half height.
+                width = sharp if singlet else sharp + MULTIPLET_EXTRA_WIDTH_HZ
+                at = find_peak(spectrum, sig.ppm, window_ppm=window, min_snr=5.0, max_width_hz=width,
                                isolated_hz=SINGLET_ISOLATION_HZ if (singlet and isolated) else None)
                 if at is not None:
                     if singlet and not isolated:

@@ -10,7 +10,7 @@ from nmrcheck.processing.spectrum import Spectrum
 __all__ = ["Region", "ProtonCount", "Reference", "PhaseCorrection", "Processed"]
 
 #: Flags a region can carry; a flagged region is reported but not counted as analyte.
-REGION_FLAGS = frozenset({"solvent", "water", "impurity", "reference", "satellite"})
+REGION_FLAGS = frozenset({"solvent", "water", "impurity", "reference", "satellite", "noise"})
 
 
 @dataclass(frozen=True)

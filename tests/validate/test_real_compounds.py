@@ -26,6 +26,7 @@ COMPOUNDS = [
 
 #: Own structure not 'consistent' (measured): why.
 OWN_MISSES = {
+    "2759-55-9": "inconsistent: the water line sits at 1.65 ppm, off its 1.56 ppm table position, is counted, and comes out as 0.57 H at 13 H",
     "16485-10-2": "doubtful: predicted shifts 0.52 ppm per H from the observed; heteroatom-substituted sp3 region holds 9.1 H where 6 are expected (OH/NH in CDCl3 broad and shifted)",
     "2216-51-5": "doubtful: anchored to 20 H the signals only roughly fit whole numbers (the 0.83 ppm signal comes out as 0.64 H)",
     "403-40-7": "doubtful: predicted shifts 0.83 ppm per H from the observed; aliphatic region holds 5.1 H where 3 are expected (NH2 + impurity)",
@@ -36,7 +37,7 @@ OWN_MISSES = {
 #: the integrals anchor to the wrong H count as well as to the right one (a formula may lack
 #: exchangeable H), and the unsaturation minimum is not violated.
 NMR_ONLY_CAUGHT = {("+2H", "16485-10-2"), ("+2H", "2216-51-5"), ("-2H", "1047626-52-7"), ("-2H", "140-67-0"),
-                   ("-2H", "492-62-6"), ("-2H", "517920-70-6"), ("-2H", "50-78-2")}
+                   ("-2H", "492-62-6"), ("-2H", "517920-70-6")}
 NMR_ONLY_MISSES = {(f"{dh:+d}H", n) for dh in (2, -2) for n in COMPOUNDS} - NMR_ONLY_CAUGHT
 
 
