@@ -8,7 +8,7 @@ from typing import Any
 
 import numpy as np
 
-from nmrcheck.errors import ParameterError, ProcessingError
+from nmrcheck.errors import ParameterError
 from nmrcheck.io import Fid, SpectrumFile, read_any
 from nmrcheck.processing.baseline import correct_baseline
 from nmrcheck.processing.count import count_protons
@@ -178,10 +178,3 @@ def process(source: Fid | SpectrumFile | str | os.PathLike, options: ProcessingO
         noise=noise,
         warnings=tuple(warnings),
     )
-
-
-def require_signal(processed: Processed) -> Processed:
-    """Raise :class:`ProcessingError` when nothing could be counted (for callers that need a count)."""
-    if processed.count is None:
-        raise ProcessingError(f"{processed.spectrum.source}: no analyte signal above the noise threshold")
-    return processed
