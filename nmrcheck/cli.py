@@ -10,6 +10,7 @@ import click
 
 from nmrcheck import __version__
 from nmrcheck.errors import NmrcheckError
+from nmrcheck.tolerances import DEFAULT_TOLERANCE_PPM
 
 CONTEXT = {"help_option_names": ["-h", "--help"], "max_content_width": 100}
 
@@ -169,7 +170,7 @@ def plate_group() -> None:
 @click.option("--redo", is_flag=True, help="Screen wells again even when they have a result for the same options.")
 @click.option("--layout", type=click.Choice(["96", "384"]), default=None, help="Plate format [default: from the well names].")
 @click.option("--lb", "lb_hz", type=float, default=None, help="Line broadening, Hz.")
-@click.option("--mass-tolerance", "mass_tolerance_ppm", type=float, default=None, help="HRMS tolerance, ppm.")
+@click.option("--mass-tolerance", "mass_tolerance_ppm", type=float, default=None, help=f"HRMS tolerance, ppm [default: {DEFAULT_TOLERANCE_PPM:g}].")
 @click.option("--scheduler", default=None, help="Dask distributed scheduler address (needs the 'dask' extra) instead of local processes.")
 @click.option("--no-report", is_flag=True, help="Do not write the HTML report and exports at the end.")
 @user_errors
@@ -305,7 +306,7 @@ def quant_command(spectrum, analyte_range, analyte_h, candidate, longest_t1, as_
 @click.option("--candidates", "candidates_file", type=click.Path(exists=True), help="SMILES, MOL, SDF or CSV file of candidates.")
 @click.option("--mz", type=float, multiple=True, help="Observed m/z of the MS feature (repeat with one --ion each).")
 @click.option("--ion", multiple=True, help="Ion species of each --mz, e.g. [M+H]+.")
-@click.option("--ppm", "ppm_tol", type=float, default=5.0, show_default=True, help="Mass tolerance, ppm.")
+@click.option("--ppm", "ppm_tol", type=float, default=DEFAULT_TOLERANCE_PPM, show_default=True, help="Mass tolerance, ppm.")
 @click.option("--isotopes", help="Observed isotope intensities of the first ion, e.g. 100,11.2,0.9.")
 @click.option("--solvent", help="Override the solvent recorded in the file.")
 @click.option("--json", "as_json", is_flag=True, help="Print JSON.")
@@ -365,17 +366,18 @@ def check_command(spectrum, formulas, smiles, candidates_file, mz, ion, ppm_tol,
 @main.command("formulas", context_settings={**CONTEXT, "ignore_unknown_options": True})
 @click.argument("mz", nargs=-1, required=True)
 @click.option("--ion", "ions", multiple=True, help="Ion species of each MZ, in order, e.g. '[M+H]+' (repeatable).")
-@click.option("--ppm", type=float, default=3.0, show_default=True, help="Mass tolerance per ion, ppm (0: use --mda only).")
+@click.option("--ppm", type=float, default=DEFAULT_TOLERANCE_PPM, show_default=True, help="Mass tolerance per ion, ppm (0: use --mda only).")
 @click.option("--mda", type=float, default=None, help="Mass tolerance per ion, mDa (with --ppm the larger applies).")
 @click.option("--isotopes", help="Observed intensities of M+0, M+1, ... of the first ion, e.g. '100,16.8,2.3'.")
 @click.option("--elements", help="Element ranges, e.g. 'C0-80 H0-150 N0-10 O0-40 S0-3 Cl0-2' (default CHNOPS).")
 @click.option("--rules", type=click.Choice(["common", "extended", "valence", "none"]), default="common", show_default=True,
               help="Filter preset: golden rules with common or extended ratio ranges, valence rules only, or none.")
 @click.option("--no-prior", is_flag=True, help="Score without the natural-product element prior.")
+@click.option("--h-range", "h_range", help="Protons the 1H spectrum shows, LOW-HIGH (e.g. 17-19): bounds and scores the H count.")
 @click.option("--max", "max_candidates", type=int, default=20, show_default=True, help="Candidates shown at most.")
 @click.option("--json", "as_json", is_flag=True, help="Print a JSON list of candidates.")
 @user_errors
-def formulas_command(mz, ions, ppm, mda, isotopes, elements, rules, no_prior, max_candidates, as_json):
+def formulas_command(mz, ions, ppm, mda, isotopes, elements, rules, no_prior, h_range, max_candidates, as_json):
     """Ranked molecular formulas of the neutral compound behind MZ (one or more ions of one feature).
 
     Give one --ion per MZ; all must agree on one neutral mass.
@@ -405,5 +407,20 @@ def formulas_command(mz, ions, ppm, mda, isotopes, elements, rules, no_prior, ma
         rules=rules,
         max_candidates=max_candidates,
         prior=None if no_prior else "natural_products",
+        h_range=_h_range(h_range),
     )
     click.echo(search_json(search) if as_json else format_search(search))
+
+
+def _h_range(text: str | None) -> tuple[float, float] | None:
+    """'17-19' or '18' as a (low, high) proton range."""
+    from nmrcheck.errors import ParameterError
+
+    if not text:
+        return None
+    low, sep, high = text.partition("-")
+    try:
+        values = (float(low), float(high) if sep else float(low))
+    except ValueError:
+        raise ParameterError(f"--h-range {text!r}: give LOW-HIGH proton counts, e.g. 17-19") from None
+    return values

@@ -37,6 +37,10 @@ class IonSpecies:
         Signed charge number z.
     electrons : str
         ``'even'`` or ``'odd'``: electron parity of the ion made from an even-electron M.
+    intrinsic : bool
+        The molecule carries the charge itself (``[M]+`` of a quaternary ammonium or an
+        aromatic iminium such as berberine): M is then the even-electron ion, written as its
+        neutral-atom composition, and the ion is M less (or plus) ``charge`` electrons.
     """
 
     notation: str
@@ -45,6 +49,7 @@ class IonSpecies:
     loss: Formula
     charge: int
     electrons: str
+    intrinsic: bool = False
 
     @property
     def polarity(self) -> str:
@@ -100,7 +105,8 @@ def parse_ion(text: str) -> IonSpecies:
     and, for a radical ion, a dot (``[M]+.``). GROUP is a tabled group (H, Na, K, NH4, Cl,
     Br, HCOO, CH3COO, FA, ACN, MeOH, Hex, ...; see ``ion_fragments.csv``) or any neutral
     formula (``H2O``, ``CO2``, ``C6H10O5``). The charges the groups bring must add up to the
-    stated charge (a radical ion differs by one electron).
+    stated charge (a radical ion differs by one electron). ``[M]+`` (``[M]2+``, ``[M]-``)
+    without a dot is a permanently charged molecule: M is the even-electron ion itself.
 
     Raises
     ------
@@ -148,6 +154,12 @@ def parse_ion(text: str) -> IonSpecies:
             brought -= q * count
         parts.append(_format_term(sign, count, name))
     electrons_moved = charge - brought
+    if not terms_txt and not radical and molecules == 1 and abs(charge) <= 3:
+        # '[M]+': no group brings the charge, so the molecule is itself the (even-electron) ion.
+        return IonSpecies(
+            notation=f"[M]{z_abs if z_abs > 1 else ''}{z_sign}", molecules=1, gain=Formula(), loss=Formula(),
+            charge=charge, electrons="even", intrinsic=True,
+        )
     if electrons_moved == 0:
         if radical:
             raise FormulaError(f"ion {text!r}: the groups already carry charge {charge:+d}; drop the radical dot")

@@ -22,12 +22,13 @@ from __future__ import annotations
 import logging
 import math
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from functools import lru_cache
 from types import MappingProxyType
 
 import numpy as np
 
+from nmrcheck.chem._envelope import infer_heavy_elements
 from nmrcheck.chem.adducts import IonSpecies, neutral_mass, parse_ion
 from nmrcheck.chem.elements import element, hill_sort_key
 from nmrcheck.chem.enumerate import (
@@ -52,13 +53,14 @@ from nmrcheck.chem.rules import (
     RULE_NAMES,
     element_count_limits,
     evaluate_rules,
-    filter_rules,
+    rule_mask,
     pruning_for,
     ratio_range_of,
     rules_of_preset,
 )
 from nmrcheck.data import load_table
 from nmrcheck.errors import FormulaError, ParameterError, TableError
+from nmrcheck.tolerances import DEFAULT_TOLERANCE_PPM
 
 __all__ = [
     "IonMatch",
@@ -68,6 +70,7 @@ __all__ = [
     "formula_search",
     "MAX_PPM",
     "MAX_MDA",
+    "DEFAULT_TOLERANCE_PPM",
 ]
 
 log = logging.getLogger("nmrcheck")
@@ -146,6 +149,9 @@ class FormulaCandidate:
     ions : tuple of IonMatch
         One per observed m/z.
     isotope_fit : IsotopeFit or None
+    charge : int
+        0 for a neutral molecule; the charge of a permanently charged molecule (``[M]+``),
+        whose ``formula`` is then the ion's composition (neutral-atom basis, half-integer RDBE).
     """
 
     formula: Formula
@@ -159,9 +165,18 @@ class FormulaCandidate:
     score_parts: Mapping[str, float] = field(default_factory=dict)
     ions: tuple[IonMatch, ...] = ()
     isotope_fit: IsotopeFit | None = None
+    charge: int = 0
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "score_parts", MappingProxyType(dict(self.score_parts)))
+
+    @property
+    def label(self) -> str:
+        """Hill formula with the charge of a charged molecule (``'C20H18NO4+'``)."""
+        if not self.charge:
+            return self.formula.hill
+        z = abs(self.charge)
+        return f"{self.formula.hill}{z if z > 1 else ''}{'+' if self.charge > 0 else '-'}"
 
 
 @dataclass(frozen=True)
@@ -187,7 +202,12 @@ class FormulaSearch:
         them with rules 'none'; with a preset, those its valence and ratio limits did not
         already exclude while enumerating.
     n_passed : int
-        Of those, how many pass the preset's rules (and are ranked).
+        Of those, how many pass the preset's rules (and the proton bound, when given) and are ranked.
+    notes : tuple of str
+        What the search inferred or changed on its own (elements added because the isotope
+        envelope demands them, a proton bound applied).
+    h_range : (float, float) or None
+        Visible proton count range used as a bound, as given.
     """
 
     candidates: tuple[FormulaCandidate, ...]
@@ -201,6 +221,8 @@ class FormulaSearch:
     ppm: float | None
     mda: float | None
     isotopes: tuple[float, ...] | None
+    notes: tuple[str, ...] = ()
+    h_range: tuple[float, float | None] | None = None
 
 
 def _tolerance(mz: float, ppm: float | None, mda: float | None) -> float:
@@ -297,13 +319,14 @@ def _search_ranges(
 def formula_search(
     features: Sequence[tuple[float, str]],
     *,
-    ppm: float | None = 3.0,
+    ppm: float | None = DEFAULT_TOLERANCE_PPM,
     mda: float | None = None,
     isotopes: Sequence[float] | str | None = None,
     elements: Mapping[str, tuple[int, int | None]] | str | None = None,
     rules: str = "common",
     max_candidates: int = 20,
     prior: str | None = "natural_products",
+    h_range: tuple[float, float] | None = None,
     isotope_relative_error: float = RELATIVE_ERROR,
     isotope_absolute_error: float = ABSOLUTE_ERROR,
     mass_error_correlation: float = MASS_ERROR_CORRELATION,
@@ -315,15 +338,19 @@ def formula_search(
     features : sequence of (float, str)
         Observed m/z and ion species in bracket notation, e.g.
         ``[(301.1410, '[M+H]+'), (323.1230, '[M+Na]+')]``. All must agree on one neutral
-        mass within tolerance.
+        mass within tolerance. ``[M]+`` (alone) is a permanently charged molecule: the
+        candidates are then even-electron cations (``charge`` 1), judged by the rules as
+        the neutral that has lost a proton.
     ppm, mda : float, optional
         Mass tolerance per ion, ppm of m/z and/or mDa; with both, the larger applies.
+        Default :data:`DEFAULT_TOLERANCE_PPM`.
     isotopes : sequence of float or str, optional
         Observed intensities of M+0, M+1, M+2, ... of the *first* ion (any scale).
     elements : mapping or str, optional
         Element ranges (``'C0-80 H0-150 N0-10 O0-40 S0-3 Cl0-2'``); default CHNOPS, each up
-        to what the mass and, with rule 1, the golden rules allow. F, Cl, Br, I, Si (and Na,
-        K) are available on request.
+        to what the mass and, with rule 1, the golden rules allow, widened by Cl and Br when
+        the observed M+2 and M+4 demand them (said in the search's ``notes``). F, Cl, Br,
+        I, Si (and Na, K) are available on request.
     rules : {'common', 'extended', 'valence', 'none'}
         Filter preset (:data:`nmrcheck.chem.rules.RULE_PRESETS`); every rule is evaluated
         and reported whatever the preset.
@@ -332,6 +359,12 @@ def formula_search(
     prior : {'natural_products', None}
         Add the log prior probability that a natural product contains each heteroatom the
         formula has (``element_priors.csv``) as the score part 'prior'; None: no prior.
+    h_range : (float, float or None), optional
+        Protons the 1H spectrum shows (the proton count's range; high None: at least low). A formula with H
+        hydrogens, E of which could be exchangeable (one per O and S, two per N), can show
+        H-E to H of them; formulas that cannot show any count in the range are cut, and the
+        others score ``log(share of their 0..E hidden-H cases that fit)`` as the part
+        'protons' (every number of hidden exchangeable H taken as equally likely).
     isotope_relative_error, isotope_absolute_error : float
         Isotope error model (see :mod:`nmrcheck.chem.isotopes`).
     mass_error_correlation : float
@@ -341,11 +374,82 @@ def formula_search(
     Raises
     ------
     ParameterError
-        Bad m/z, tolerance, intensities, or m/z values that disagree on the neutral mass.
+        Bad m/z, tolerance, intensities, proton range, or m/z values that disagree on the
+        neutral mass.
     FormulaError
         Unknown ion species or element, malformed element range.
     """
     parsed = _parse_features(features)
+    h_bounds = _check_h_range(h_range)
+    intrinsic = [s for _, s in parsed if s.intrinsic]
+    if not intrinsic:
+        return _search(parsed, ppm, mda, isotopes, elements, rules, max_candidates, prior, h_bounds, h_range, 0,
+                       isotope_relative_error, isotope_absolute_error, mass_error_correlation)
+    if len(parsed) > 1:
+        raise ParameterError(
+            f"features: {intrinsic[0].notation} (a permanently charged molecule) cannot be combined with other ions in one feature"
+        )
+    (mz, species), = parsed
+    z = species.charge
+    # The cation X observed as [X]+ has the m/z of [M+H]+ of the neutral M = X - H: search
+    # for M, then report X (and likewise X - H for an anion).
+    stand_in = parse_ion({1: "[M+H]+", 2: "[M+2H]2+", 3: "[M+3H]3+", -1: "[M-H]-", -2: "[M-2H]2-", -3: "[M-3H]3-"}[z])
+    inner = _search([(mz, stand_in)], ppm, mda, isotopes, elements, rules, max_candidates, prior, h_bounds, h_range, z,
+                    isotope_relative_error, isotope_absolute_error, mass_error_correlation)
+    shift = Formula({"H": abs(z)})
+    h_mass = shift.monoisotopic_mass * (1 if z > 0 else -1)
+    candidates = []
+    for c in inner.candidates:
+        ion_formula = c.formula + shift if z > 0 else c.formula - shift
+        match = replace(c.ions[0], ion=species.notation)
+        candidates.append(replace(c, formula=ion_formula, neutral_mass=c.neutral_mass + h_mass, rdbe=ion_formula.rdbe,
+                                  ions=(match,), charge=z))
+    low, high = inner.mass_window
+    return replace(
+        inner,
+        candidates=tuple(candidates),
+        features=((mz, species.notation),),
+        neutral_mass=inner.neutral_mass + h_mass,
+        mass_window=(low + h_mass, high + h_mass),
+        notes=inner.notes + (
+            f"{species.notation}: candidates are charged molecules; the rules judge each as the neutral "
+            f"{'less' if z > 0 else 'plus'} {abs(z)} H+",
+        ),
+    )
+
+
+def _check_h_range(h_range) -> tuple[int, int] | None:
+    """Whole proton counts the visible range allows: [ceil(low), floor(high)], or the nearest whole number."""
+    if h_range is None:
+        return None
+    try:
+        low, high = h_range
+        low, high = float(low), (math.inf if high is None else float(high))
+    except (TypeError, ValueError):
+        raise ParameterError(f"h_range: need (low, high) proton counts, got {h_range!r}") from None
+    if math.isinf(high) and math.isfinite(low) and low >= 0:
+        return math.ceil(low - 1e-6), MAX_COUNT
+    if not (math.isfinite(low) and math.isfinite(high)) or low < 0 or high < low:
+        raise ParameterError(f"h_range: need 0 <= low <= high, got {h_range!r}")
+    lo, hi = math.ceil(low - 1e-6), math.floor(high + 1e-6)
+    if lo > hi:
+        lo = hi = round((low + high) / 2)
+    return lo, hi
+
+
+def _proton_part(table: FormulaTable, bounds: tuple[int, int], h_offset: int) -> np.ndarray:
+    """log of the share of hidden-exchangeable-H cases (0..E equally likely) that leave a visible count in ``bounds``."""
+    h = table.column("H").astype(np.int64) + h_offset
+    exchangeable = table.column("O").astype(np.int64) + 2 * table.column("N") + table.column("S")
+    lo, hi = bounds
+    fitting = np.minimum(h, hi) - np.maximum(h - exchangeable, lo) + 1
+    share = np.clip(fitting, 0, None) / (exchangeable + 1.0)
+    with np.errstate(divide="ignore"):
+        return np.log(share)
+
+
+def _search(parsed, ppm, mda, isotopes, elements, rules, max_candidates, prior, h_bounds, h_range, h_offset,
+            isotope_relative_error, isotope_absolute_error, mass_error_correlation) -> FormulaSearch:
     ppm, mda = _check_tolerances(ppm, mda)
     rules_of_preset(rules)
     if prior is not None and prior not in PRIORS:
@@ -355,6 +459,7 @@ def formula_search(
     if not isinstance(max_candidates, int) or isinstance(max_candidates, bool) or max_candidates < 1:
         raise ParameterError(f"max_candidates: a whole number >= 1, got {max_candidates!r}")
     observed = parse_intensities(isotopes) if isotopes is not None else None
+    notes: list[str] = []
 
     # Neutral-mass window allowed by each ion; they must overlap.
     windows, centres, sigmas, tolerances = [], [], [], []
@@ -382,13 +487,34 @@ def formula_search(
             f"beyond the tolerance)"
         )
 
+    if elements is None and observed is not None:
+        inferred = infer_heavy_elements(
+            observed, parsed[0][1], relative_error=isotope_relative_error, absolute_error=isotope_absolute_error
+        )
+        if inferred is not None and inferred.note:
+            notes.append(inferred.note)
+        if inferred is not None and inferred.demanded:
+            elements = parse_element_ranges(DEFAULT_ELEMENTS)
+            elements.update(inferred.ranges)
     ranges = _search_ranges(elements, (low, high), rules, [s for _, s in parsed])
     # The window is the intersection over the ions, and losses have set minimum counts, so
     # every composition found forms every ion within tolerance.
     table = enumerate_formulas(low, high, ranges, pruning=pruning_for(rules))
     n_in_window = len(table)
 
-    table = filter_rules(table, rules_of_preset(rules), ratio_range=ratio_range_of(rules))
+    proton_part = None
+    if h_bounds is not None:
+        proton_part = _proton_part(table, h_bounds, h_offset)
+        keep = np.isfinite(proton_part)
+        table, proton_part = table.take(keep), proton_part[keep]
+        notes.append(
+            f"proton bound: {h_bounds[0]}-{h_bounds[1]} H seen in the 1H spectrum, plus up to one exchangeable H per O "
+            f"and S and two per N, removed {int(np.count_nonzero(~keep))} of {n_in_window} formulas"
+        )
+    passing = rule_mask(table, rules_of_preset(rules), ratio_range=ratio_range_of(rules))
+    table = table.take(passing)
+    if proton_part is not None:
+        proton_part = proton_part[passing]
     n_passed = len(table)
 
     masses = table.masses
@@ -404,25 +530,23 @@ def formula_search(
     w_ion = weights / weights.sum()
     mean_ppm = sum(w * e for w, e in zip(w_ion, errors_ppm)) if len(table) else np.zeros(0)
 
+    prior_part = _prior_part(table, prior)
+    base = mass_part.copy()
+    if prior_part is not None:
+        base = base + prior_part
+    if proton_part is not None:
+        base = base + proton_part
+
     iso_part = None
     chi2 = scaled = None
     dof = 0
     if observed is not None and len(table):
-        ion_counts, ion_elements = _ion_counts(table, parsed[0][1])
-        predicted = pattern_matrix(ion_counts, ion_elements, len(observed))
-        chi2, scaled, dof = fit_isotopes(
-            observed,
-            predicted,
-            relative_error=isotope_relative_error,
-            absolute_error=isotope_absolute_error,
+        iso_part, chi2, scaled, dof = _isotope_parts(
+            table, parsed[0][1], observed, base, max_candidates, isotope_relative_error, isotope_absolute_error
         )
-        iso_part = -0.5 * chi2
         isotope_agrees = chi2 <= agreement_limit(dof)
 
-    prior_part = _prior_part(table, prior)
-    score = mass_part + (iso_part if iso_part is not None else 0.0)
-    if prior_part is not None:
-        score = score + prior_part
+    score = base + (iso_part if iso_part is not None else 0.0)
     # Best score first; ties by smaller mass error, then formula mass.
     order = np.lexsort((masses, np.abs(mean_ppm), -score))[:max_candidates]
     # Every rule is reported for the candidates shown, whether the preset filters on it or not.
@@ -438,6 +562,8 @@ def formula_search(
         parts = {"mass": float(mass_part[i])}
         if prior_part is not None:
             parts["prior"] = float(prior_part[i])
+        if proton_part is not None:
+            parts["protons"] = float(proton_part[i])
         fit = None
         if iso_part is not None:
             parts["isotopes"] = float(iso_part[i])
@@ -494,7 +620,42 @@ def formula_search(
         ppm=ppm,
         mda=mda,
         isotopes=observed,
+        notes=tuple(notes),
+        h_range=None if h_range is None else (float(h_range[0]), None if h_range[1] is None else float(h_range[1])),
     )
+
+
+def _isotope_parts(table, species, observed, base, max_candidates, relative_error, absolute_error):
+    """Isotope score, chi2 and scaled predictions, computed only where they can matter.
+
+    The isotope part is never positive, so a candidate whose other parts (``base``) already
+    fall below the ``max_candidates``-th best full score cannot be shown; its pattern is
+    not computed (its chi2 stays infinite). Best ``base`` first, in growing batches, until
+    no remaining candidate can enter.
+    """
+    n = len(table)
+    k = len(observed)
+    iso = np.full(n, -np.inf)
+    chi2 = np.full(n, np.inf)
+    scaled = np.zeros((n, k))
+    order = np.argsort(-base, kind="stable")
+    done = 0
+    batch = max(256, 8 * max_candidates)
+    dof = k - 1
+    while done < n:
+        take = order[done : done + batch]
+        ion_counts, ion_elements = _ion_counts(table.take(take), species)
+        predicted = pattern_matrix(ion_counts, ion_elements, k)
+        c2, sc, dof = fit_isotopes(observed, predicted, relative_error=relative_error, absolute_error=absolute_error)
+        chi2[take], scaled[take], iso[take] = c2, sc, -0.5 * c2
+        done += take.size
+        batch *= 4
+        if done >= max_candidates and done < n:
+            kth = np.partition(-(base + iso), max_candidates - 1)[max_candidates - 1]
+            # Strictly below: equal scores are ordered by mass error and must still be computed.
+            if base[order[done]] < -kth:
+                break
+    return iso, chi2, scaled, dof
 
 
 PRIORS = ("natural_products",)
@@ -541,13 +702,14 @@ def _ion_counts(table: FormulaTable, species: IonSpecies) -> tuple[np.ndarray, t
 def formula_candidates(
     features: Sequence[tuple[float, str]],
     *,
-    ppm: float | None = 3.0,
+    ppm: float | None = DEFAULT_TOLERANCE_PPM,
     mda: float | None = None,
     isotopes: Sequence[float] | str | None = None,
     elements: Mapping[str, tuple[int, int | None]] | str | None = None,
     rules: str = "common",
     max_candidates: int = 20,
     prior: str | None = "natural_products",
+    h_range: tuple[float, float] | None = None,
 ) -> tuple[FormulaCandidate, ...]:
     """Ranked candidate neutral formulas for one MS feature (see :func:`formula_search`).
 
@@ -566,4 +728,5 @@ def formula_candidates(
         rules=rules,
         max_candidates=max_candidates,
         prior=prior,
+        h_range=h_range,
     ).candidates

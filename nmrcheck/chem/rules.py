@@ -27,6 +27,7 @@ __all__ = [
     "check_rules",
     "evaluate_rules",
     "filter_rules",
+    "rule_mask",
     "CHEMICAL_RULES",
     "element_count_limits",
     "ratio_limits",
@@ -272,6 +273,19 @@ def evaluate_rules(
         except KeyError:
             raise ParameterError(f"rules: unknown rule {rule!r}; known: {', '.join(CHEMICAL_RULES)}") from None
     return out
+
+
+def rule_mask(table: FormulaTable, rules: tuple[str, ...], *, ratio_range: str = "common") -> np.ndarray:
+    """Boolean mask of the rows of ``table`` passing every rule of ``rules`` (see :func:`filter_rules`)."""
+    index = np.arange(len(table))
+    for rule in rules:
+        if not index.size:
+            break
+        sub = table.take(index)
+        index = index[_RULES[rule](sub, ratio_range)]
+    mask = np.zeros(len(table), dtype=bool)
+    mask[index] = True
+    return mask
 
 
 def filter_rules(table: FormulaTable, rules: tuple[str, ...], *, ratio_range: str = "common") -> FormulaTable:

@@ -20,6 +20,7 @@ from typing import Any
 import numpy as np
 
 from nmrcheck import __version__
+from nmrcheck.chem.candidates import DEFAULT_TOLERANCE_PPM
 from nmrcheck.errors import InputFileError, NmrcheckError, ParameterError
 from nmrcheck.plate.manifest import WellSpec, resolve_spectrum
 from nmrcheck.plate.results import SpectrumTrace, WellResult, options_hash
@@ -38,7 +39,7 @@ class ScreenOptions:
     """Every choice of a plate screen beyond the manifest; stored with each result and hashed to key it."""
 
     processing: ProcessingOptions = field(default_factory=ProcessingOptions)
-    mass_tolerance_ppm: float = 3.0
+    mass_tolerance_ppm: float = DEFAULT_TOLERANCE_PPM
     elements: str | None = None
     """Element ranges for the formula search (``'C0-60 H0-120 N0-6 O0-20'``); None: the engine's default."""
     rules: str = "common"
@@ -123,8 +124,12 @@ def _processing_record(processed, options: ProcessingOptions) -> dict[str, Any]:
     }
 
 
-def _candidate_list(spec: WellSpec, options: ScreenOptions, notes: list[str]) -> tuple[list[Any], list[dict[str, Any]]]:
+def _candidate_list(spec: WellSpec, options: ScreenOptions, notes: list[str], *, h_low: float | None = None) -> tuple[list[Any], list[dict[str, Any]]]:
     """(validation candidates, their records): the manifest's formulas and structures, then the HRMS search's.
+
+    ``h_low``, the low end of the spectrum's own proton count, bounds the formulas' H from
+    below: the count's self-found unit may be a whole fraction of the true one (it prefers
+    fewer protons), so the true visible count is at least that, never surely at most.
 
     Records and candidates share an index and a ``key`` the checks refer back to. A
     validation candidate is None when the validation stage is not installed or the entry
@@ -172,6 +177,7 @@ def _candidate_list(spec: WellSpec, options: ScreenOptions, notes: list[str]) ->
             elements=options.elements,
             rules=options.rules,
             max_candidates=options.max_formulas,
+            h_range=None if h_low is None else (h_low, None),
         )
     except NmrcheckError as exc:
         notes.append(f"formula search: {exc}")
@@ -188,6 +194,7 @@ def _candidate_list(spec: WellSpec, options: ScreenOptions, notes: list[str]) ->
             continue
         rec["source"] = "hrms"
         add(rec, lambda c=cand: ((Candidate(c.formula.hill, c.formula, None, f"formula engine #{c.rank}"),), ()))
+    notes.extend(f"formula search: {n}" for n in search.notes)
     if not search.candidates:
         notes.append(f"formula search: no formula within {options.mass_tolerance_ppm:g} ppm passes the {options.rules} rules")
     return objects, records
@@ -345,7 +352,8 @@ def screen_well(spec: WellSpec, directory: str, options: ScreenOptions) -> WellR
             count=plain(processed.count),
             trace=trace,
         )
-        objects, candidates = _candidate_list(spec, options, notes)
+        h_low = processed.count.total_h_low if processed.count is not None else None
+        objects, candidates = _candidate_list(spec, options, notes, h_low=h_low)
         clock.lap("formulas")
         if processed.count is None:
             notes.append("no analyte signal above the noise threshold: the well looks empty")

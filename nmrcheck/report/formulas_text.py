@@ -17,6 +17,7 @@ def candidate_record(candidate: FormulaCandidate) -> dict[str, Any]:
     record: dict[str, Any] = {
         "rank": candidate.rank,
         "formula": candidate.formula.hill,
+        "charge": candidate.charge,
         "neutral_mass": round(candidate.neutral_mass, 6),
         "error_ppm": round(candidate.error_ppm, 3) + 0.0,
         "rdbe": candidate.rdbe,
@@ -63,6 +64,8 @@ def search_record(search: FormulaSearch) -> dict[str, Any]:
         "isotopes": list(search.isotopes) if search.isotopes is not None else None,
         "n_in_window": search.n_in_window,
         "n_passed": search.n_passed,
+        "h_range": list(search.h_range) if search.h_range is not None else None,
+        "notes": list(search.notes),
         "candidates": [candidate_record(c) for c in search.candidates],
     }
 
@@ -100,28 +103,35 @@ def format_search(search: FormulaSearch) -> str:
     )
     if search.isotopes is not None:
         lines.append(f"isotopes     {', '.join(f'{v:g}' for v in search.isotopes)} (first ion)")
+    for note in search.notes:
+        lines.append(f"note         {note}")
     lines.append("")
     if not search.candidates:
         lines.append("no formula within tolerance passes the rules")
     else:
         has_iso = search.isotopes is not None
         has_prior = any("prior" in c.score_parts for c in search.candidates)
+        has_protons = any("protons" in c.score_parts for c in search.candidates)
         head = f"{'rank':>4}  {'formula':<22} {'M (u)':>11} {'ppm':>6} {'RDBE':>5} {'score':>8} {'mass':>7}"
         if has_iso:
             head += f" {'isotope':>8}"
         if has_prior:
             head += f" {'prior':>6}"
+        if has_protons:
+            head += f" {'H':>6}"
         head += "  failed rules"
         lines.append(head)
         for c in search.candidates:
             row = (
-                f"{c.rank:>4}  {c.formula.hill:<22} {c.neutral_mass:>11.5f} {_tidy(c.error_ppm):>+6.2f} "
+                f"{c.rank:>4}  {c.label:<22} {c.neutral_mass:>11.5f} {_tidy(c.error_ppm):>+6.2f} "
                 f"{c.rdbe:>5.1f} {_tidy(c.score):>8.2f} {_tidy(c.score_parts['mass']):>7.2f}"
             )
             if has_iso:
                 row += f" {_tidy(c.score_parts.get('isotopes', 0.0)):>8.2f}"
             if has_prior:
                 row += f" {_tidy(c.score_parts.get('prior', 0.0)):>6.2f}"
+            if has_protons:
+                row += f" {_tidy(c.score_parts.get('protons', 0.0)):>6.2f}"
             failed = [r for r in c.rules_failed]
             row += "  " + (", ".join(failed) if failed else "-")
             lines.append(row)
@@ -130,6 +140,7 @@ def format_search(search: FormulaSearch) -> str:
             "score = log-likelihood, higher is better: mass (error against tolerance/2 as one SD)"
             + (" + isotope (-chi2/2 of the observed pattern)" if has_iso else "")
             + (" + prior (heteroatoms in natural products)" if has_prior else "")
+            + (" + H (share of hidden-exchangeable-H cases that fit the 1H count)" if has_protons else "")
         )
     lines.append(CAUTION)
     return "\n".join(lines)

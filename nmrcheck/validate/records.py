@@ -6,6 +6,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from nmrcheck.chem.adducts import neutral_mass, parse_ion
+from nmrcheck.chem.candidates import DEFAULT_TOLERANCE_PPM
 from nmrcheck.chem.formula import Formula
 from nmrcheck.errors import ParameterError
 
@@ -42,7 +43,7 @@ class MsFeature:
     """One MS feature: observed ions ``((mz, ion), ...)``, mass tolerance and optional isotope intensities."""
 
     ions: tuple[tuple[float, str], ...]
-    ppm: float = 5.0
+    ppm: float = DEFAULT_TOLERANCE_PPM
     isotopes: tuple[float, ...] | None = None
     """Relative intensities M+0, M+1, ... of the first ion."""
     neutral_mass: float = field(init=False)

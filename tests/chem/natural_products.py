@@ -105,6 +105,28 @@ NATURAL_PRODUCTS: tuple[tuple[str, str, str, str], ...] = (
     ("biotin", "sulfur", "OC(=O)CCCCC1SCC2NC(=O)NC12", "C10H16N2O3S"),
     ("gliotoxin", "sulfur", "CN1C(=O)C23CC4=CC=CC(O)C4N2C(=O)C1(CO)SS3", "C13H14N2O4S2"),
     ("sinigrin", "sulfur glycoside", "C=CCC(=NOS(=O)(=O)O)SC1OC(CO)C(O)C(O)C1O", "C10H17NO9S2"),
+    # Halogenated and sulfur natural products added for the envelope inference (formulas as
+    # PubChem lists them under these names, from memory; the RDKit check below catches slips).
+    ("pyoluteorin", "halogenated polyketide", "O=C(c1cc(Cl)c(Cl)[nH]1)c1c(O)cccc1O", "C11H7Cl2NO3"),
+    ("pentachloropseudilin", "halogenated", "Oc1c(Cl)cc(Cl)cc1-c1[nH]c(Cl)c(Cl)c1Cl", "C10H4Cl5NO"),
+    ("2,4,6-tribromophenol", "halogenated, marine", "Oc1c(Br)cc(Br)cc1Br", "C6H3Br3O"),
+    ("6-bromotryptamine", "halogenated alkaloid, marine", "NCCc1c[nH]c2cc(Br)ccc12", "C10H11BrN2"),
+    ("oroidin", "halogenated alkaloid, marine", "NC1=NC=C(N1)/C=C/CNC(=O)c1cc(Br)c(Br)[nH]1", "C11H11Br2N5O"),
+    ("allicin", "sulfur", "C=CCSS(=O)CC=C", "C6H10OS2"),
+    ("ergothioneine", "sulfur, betaine", "C[N+](C)(C)C(Cc1c[nH]c(=S)[nH]1)C(=O)[O-]", "C9H15N3O2S"),
+    ("lincomycin", "sulfur glycoside", "CCCC1CC(N(C)C1)C(=O)NC(C(C)O)C1OC(SC)C(O)C(O)C1O", "C18H34N2O6S"),
+    ("alliin", "sulfur amino acid", "C=CCS(=O)CC(N)C(=O)O", "C6H11NO3S"),
+)
+
+CHARGED_NATURAL_PRODUCTS: tuple[tuple[str, str, str, str], ...] = (
+    # Permanently charged cations, observed as [M]+: name, class, SMILES, formula of the cation
+    # (as PubChem lists them under these names, from memory; checked against RDKit below).
+    ("berberine", "protoberberine alkaloid", "COc1ccc2cc3[n+](cc2c1OC)CCc1cc2OCOc2cc1-3", "C20H18NO4+"),
+    ("palmatine", "protoberberine alkaloid", "COc1ccc2cc3[n+](cc2c1OC)CCc1cc(OC)c(OC)cc1-3", "C21H22NO4+"),
+    ("coptisine", "protoberberine alkaloid", "C1Oc2ccc3cc4[n+](cc3c2O1)CCc1cc2OCOc2cc1-4", "C19H14NO4+"),
+    ("sanguinarine", "benzophenanthridine alkaloid", "C[n+]1cc2c3OCOc3ccc2c2ccc3cc4OCOc4cc3c12", "C20H14NO4+"),
+    ("magnoflorine", "aporphine alkaloid", "C[N+]1(C)CCc2cc(OC)c(O)c3c2C1Cc1ccc(OC)c(O)c1-3", "C20H24NO4+"),
+    ("choline", "quaternary ammonium", "C[N+](C)(C)CCO", "C5H14NO+"),
 )
 
 

@@ -120,7 +120,7 @@ def test_equivalent_spellings(text, same_as):
         ("[M+Xy]+", "'Xy'"),
         ("[M+H]-", "bring charge +1"),
         ("[M-H]+", "bring charge -1"),
-        ("[M]+", "radical ion needs the dot"),
+        ("[M+Na]2+", "bring charge +1"),
         ("[M+H]+.", "drop the radical dot"),
         ("[M+2H]+", "bring charge +2"),
         ("[7M+H]+", "1 to 4"),
