@@ -69,3 +69,46 @@ def screened_plate(plate_manifest, tmp_path_factory):
     manifest = read_manifest(plate_manifest)
     summary = run_plate(manifest, out, workers=2)
     return manifest, out, summary
+
+
+@pytest.fixture(scope="session")
+def psims_writer():
+    """A function writing a sequence of :class:`nmrcheck.io.mzml.Scan` as mzML with the PSI writer library psims."""
+    pytest.importorskip("psims", reason="psims (the PSI mzML writer) is not installed; pip install -e '.[test]'")
+    from psims.mzml.writer import MzMLWriter
+
+    def write(path, scans, *, run_id="run"):
+        import gc
+        import warnings
+
+        # psims leaves its ontology files open; they are closed by the collection below.
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", ResourceWarning)
+            _write(path, list(scans), run_id)
+            gc.collect()
+        return path
+
+    def _write(path, scans, run_id):
+        with MzMLWriter(open(path, "wb"), close=True) as out:
+            out.controlled_vocabularies()
+            out.file_description(["MS1 spectrum", "MSn spectrum", "centroid spectrum"])
+            out.software_list([{"id": "psims-writer", "version": "1", "params": ["python-psims"]}])
+            source = out.Source(1, ["electrospray ionization", "electrospray inlet"])
+            analyzer = out.Analyzer(2, ["time-of-flight"])
+            detector = out.Detector(3, ["microchannel plate detector"])
+            out.instrument_configuration_list([out.InstrumentConfiguration(id="IC1", component_list=[source, analyzer, detector])])
+            out.data_processing_list([out.DataProcessing([out.ProcessingMethod(order=1, software_reference="psims-writer", params=["Conversion to mzML"])], id="DP1")])
+            with out.run(id=run_id, instrument_configuration="IC1"):
+                with out.spectrum_list(count=len(scans)):
+                    for s in scans:
+                        precursor = None
+                        if s.ms_level > 1:
+                            precursor = {"mz": s.precursor_mz, "charge": s.precursor_charge, "scan_id": s.precursor_scan_id,
+                                         "activation": ["beam-type collision-induced dissociation", {"collision energy": s.collision_energy_ev}]}
+                        out.write_spectrum(
+                            s.mz, s.intensity, id=s.scan_id, polarity=f"{s.polarity} scan", centroided=bool(s.centroided),
+                            scan_start_time=s.rt_min, precursor_information=precursor,
+                            params=[{"ms level": s.ms_level}, "MS1 spectrum" if s.ms_level == 1 else "MSn spectrum"],
+                        )
+
+    return write
