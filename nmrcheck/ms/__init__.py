@@ -5,4 +5,21 @@ Sits beside :mod:`nmrcheck.chem` (whose formulas, ion species and isotope patter
 downstream. File formats (mzML, timetables) are read in :mod:`nmrcheck.io`.
 """
 
-__all__: list[str] = []
+from nmrcheck.ms.features import FeatureIon, FeatureOptions, LcmsFeature, Ms2Spectrum, WellMs, plate_features, well_features
+from nmrcheck.ms.msms import FragmentCheck, SpectralGroup, SpectralLink, check_fragments, modified_cosine, spectral_groups
+
+__all__ = [
+    "FeatureIon",
+    "FeatureOptions",
+    "FragmentCheck",
+    "LcmsFeature",
+    "Ms2Spectrum",
+    "SpectralGroup",
+    "SpectralLink",
+    "WellMs",
+    "check_fragments",
+    "modified_cosine",
+    "plate_features",
+    "spectral_groups",
+    "well_features",
+]
