@@ -173,8 +173,9 @@ def plate_group() -> None:
 @click.option("--mass-tolerance", "mass_tolerance_ppm", type=float, default=None, help=f"HRMS tolerance, ppm [default: {DEFAULT_TOLERANCE_PPM:g}].")
 @click.option("--scheduler", default=None, help="Dask distributed scheduler address (needs the 'dask' extra) instead of local processes.")
 @click.option("--no-report", is_flag=True, help="Do not write the HTML report and exports at the end.")
+@click.option("--assay", "assay_path", type=click.Path(dir_okay=False), default=None, help="Bioassay readouts per well (CSV: well,value[,unit,threshold,hit_when,assay]) to join in the report.")
 @user_errors
-def plate_run(manifest, out_dir, workers, watch, time_limit_h, poll_s, redo, layout, lb_hz, mass_tolerance_ppm, scheduler, no_report) -> None:
+def plate_run(manifest, out_dir, workers, watch, time_limit_h, poll_s, redo, layout, lb_hz, mass_tolerance_ppm, scheduler, no_report, assay_path) -> None:
     """Screen every well of MANIFEST into --out; rerunning resumes. Exit 0 when the run completed."""
     from dataclasses import replace
 
@@ -182,6 +183,10 @@ def plate_run(manifest, out_dir, workers, watch, time_limit_h, poll_s, redo, lay
     from nmrcheck.processing import ProcessingOptions
 
     plate = read_manifest(manifest, layout=layout)
+    if assay_path is not None:
+        from nmrcheck.io.assay import read_assay
+
+        read_assay(assay_path)  # a broken assay file stops the run before any well is screened
     processing = ProcessingOptions() if lb_hz is None else ProcessingOptions(lb_hz=lb_hz)
     options = ScreenOptions(processing=processing)
     if mass_tolerance_ppm is not None:
@@ -213,7 +218,7 @@ def plate_run(manifest, out_dir, workers, watch, time_limit_h, poll_s, redo, lay
     if not no_report:
         from nmrcheck.report.plate_report import write_plate_report
 
-        report = write_plate_report(out_dir)
+        report = write_plate_report(out_dir, assay=assay_path)
         click.echo(f"report: {report}")
     click.echo(summary.describe())
 
@@ -221,12 +226,14 @@ def plate_run(manifest, out_dir, workers, watch, time_limit_h, poll_s, redo, lay
 @plate_group.command("report", context_settings=CONTEXT)
 @click.argument("out_dir", type=click.Path(file_okay=False, exists=True))
 @click.option("--title", default=None, help="Title of the page.")
+@click.option("--assay", "assay_path", type=click.Path(dir_okay=False), default=None,
+              help="Bioassay readouts per well (CSV: well,value[,unit,threshold,hit_when,assay]); kept in OUT_DIR for later reports.")
 @user_errors
-def plate_report(out_dir, title) -> None:
-    """Write report.html, results.csv and results.json from the results in OUT_DIR."""
+def plate_report(out_dir, title, assay_path) -> None:
+    """Write report.html, results.csv, results.json and NMReDATA records from the results in OUT_DIR."""
     from nmrcheck.report.plate_report import write_plate_report
 
-    click.echo(f"report: {write_plate_report(out_dir, title=title)}")
+    click.echo(f"report: {write_plate_report(out_dir, title=title, assay=assay_path)}")
 
 
 # --- demo -----------------------------------------------------------------------------------

@@ -22,7 +22,7 @@ import numpy as np
 
 from nmrcheck.synth import Line, simulate_fid
 
-__all__ = ["COMPOUNDS", "DemoWell", "demo_wells", "build_demo_plate", "run_demo", "SCENARIO"]
+__all__ = ["COMPOUNDS", "DemoWell", "demo_assay", "demo_wells", "build_demo_plate", "run_demo", "SCENARIO"]
 
 log = logging.getLogger("nmrcheck")
 
@@ -144,6 +144,27 @@ def demo_wells() -> tuple[DemoWell, ...]:
     return tuple(wells)
 
 
+#: Compounds the invented assay finds active (an invented antibacterial growth-inhibition screen).
+_ACTIVE_IN_DEMO_ASSAY = ("thymol", "eugenol", "umbelliferone")
+
+
+def demo_assay(wells: tuple[DemoWell, ...] | None = None, *, seed: int = 11) -> list[dict[str, str]]:
+    """Invented bioassay readouts for the demo wells: % growth inhibition at one dose, hit at 50 %.
+
+    Wells holding thymol, eugenol or umbelliferone inhibit (more with more material); the rest
+    and the empty well read low. Invented numbers, for the demo's morning report only.
+    """
+    rng = np.random.default_rng(seed)
+    rows = []
+    for w in wells or demo_wells():
+        active = w.content in _ACTIVE_IN_DEMO_ASSAY
+        base = 55.0 + 35.0 * min(1.0, w.amount / 1.5) if active else 4.0 + 20.0 * float(rng.random())
+        value = float(np.clip(base + rng.normal(0.0, 4.0), 0.0, 100.0))
+        rows.append({"well": w.well, "value": f"{value:.1f}", "unit": "%", "threshold": "50", "hit_when": "above",
+                     "assay": "growth inhibition, invented demo assay"})
+    return rows
+
+
 def _fid_for(well: DemoWell, *, points: int, seed: int):
     rng = np.random.default_rng(seed)
     compound = COMPOUNDS[well.content or well.claimed or "coumarin"]
@@ -177,7 +198,7 @@ def _fid_for(well: DemoWell, *, points: int, seed: int):
 
 
 def build_demo_plate(out_dir: str | os.PathLike, *, points: int = 32768, wells: tuple[DemoWell, ...] | None = None, seed: int = 7) -> Path:
-    """Write the demo plate's recordings (Bruker folders) and its manifest; return the manifest path.
+    """Write the demo plate's recordings (Bruker folders), its manifest and invented assay readouts (``assay.csv``); return the manifest path.
 
     Parameters
     ----------
@@ -231,6 +252,12 @@ def build_demo_plate(out_dir: str | os.PathLike, *, points: int = 32768, wells: 
         writer = csv.DictWriter(fh, fieldnames=list(rows[0]))
         writer.writeheader()
         writer.writerows(rows)
+    readouts = demo_assay(wells or demo_wells())
+    with open(plate / "assay.csv", "w", newline="", encoding="utf-8") as fh:
+        fh.write("# Invented readouts for the demo plate (not measured).\n")
+        writer = csv.DictWriter(fh, fieldnames=list(readouts[0]))
+        writer.writeheader()
+        writer.writerows(readouts)
     return manifest
 
 
@@ -250,5 +277,6 @@ def run_demo(out_dir: str | os.PathLike, *, workers: int | None = None, points: 
     manifest_path = build_demo_plate(out, points=points)
     manifest = read_manifest(manifest_path)
     summary = run_plate(manifest, out / "results", workers=workers, progress=progress, redo=True)
-    report = write_plate_report(out / "results", title="Demo plate - Calyxia nocturna (fictional) extract, fractions 1-36", subtitle=SCENARIO)
+    report = write_plate_report(out / "results", title="Demo plate - Calyxia nocturna (fictional) extract, fractions 1-36", subtitle=SCENARIO,
+                                assay=manifest_path.parent / "assay.csv")
     return summary, report, time.perf_counter() - t0

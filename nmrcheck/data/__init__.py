@@ -3,12 +3,13 @@
 from __future__ import annotations
 
 import csv
+import re
 from functools import lru_cache
 from importlib import resources
 
 from nmrcheck.errors import TableError
 
-__all__ = ["load_table", "table_names"]
+__all__ = ["load_table", "table_names", "user_citation"]
 
 
 def table_names() -> list[str]:
@@ -42,3 +43,25 @@ def load_table(name: str) -> tuple[dict[str, str], ...]:
             raise TableError(f"{name}.csv row {lineno}: empty source")
         rows.append({k: v.strip() for k, v in row.items()})
     return tuple(rows)
+
+
+_MEMORY_FORMS = (
+    (re.compile(r"\s*\(\s*from memory\s*\)", re.IGNORECASE), ""),
+    (re.compile(r"\(\s*from memory\s*[;,]\s*", re.IGNORECASE), "("),
+    (re.compile(r"\s*[;,]\s*from memory\b", re.IGNORECASE), ""),
+    (re.compile(r"\bfrom memory\s*[;,]?\s*", re.IGNORECASE), ""),
+)
+
+
+def user_citation(text: str | None) -> str:
+    """A table's source as users see it: without the note that it was cited from memory.
+
+    The data files keep that note for contributors; the reader of a report or a listing gets the
+    citation itself (``'Gottlieb 1997 Table 1 (from memory)'`` becomes ``'Gottlieb 1997 Table 1'``).
+    """
+    if not text:
+        return ""
+    out = str(text)
+    for pattern, repl in _MEMORY_FORMS:
+        out = pattern.sub(repl, out)
+    return re.sub(r"\s{2,}", " ", out).strip(" ;,")

@@ -1,4 +1,4 @@
-"""Read NMReDATA records: an SD file whose data items carry assigned shifts, 1D peak lists and metadata.
+"""Read and write NMReDATA records: an SD file whose data items carry assigned shifts, 1D peak lists and metadata.
 
 The structure comes from the record's mol block (through RDKit); the ``NMREDATA_*`` tags are parsed
 here. ``NMREDATA_ASSIGNMENT`` (and the ``NMR_ASSIGNMENT`` spelling some writers use) lines read
@@ -20,7 +20,7 @@ from typing import Any
 
 from nmrcheck.errors import InputFileError
 
-__all__ = ["NmredataAssignment", "NmredataPeak", "NmredataRecord", "NmredataSpectrum", "read_nmredata"]
+__all__ = ["NmredataAssignment", "NmredataPeak", "NmredataRecord", "NmredataSignal", "NmredataSpectrum", "format_nmredata", "read_nmredata", "write_nmredata"]
 
 log = logging.getLogger("nmrcheck")
 
@@ -226,3 +226,95 @@ def read_nmredata(path: str | os.PathLike) -> NmredataRecord:
     if not records:
         raise InputFileError(p, "empty NMReDATA file")
     return _record(records[0], p)
+
+
+# --- writing ------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class NmredataSignal:
+    """One 1H signal to write: its shift, a label, and the protons it holds (``N=``)."""
+
+    shift_ppm: float
+    label: str
+    n_h: float | None = None
+    range_ppm: tuple[float, float] | None = None
+    """(high, low) edges of the integrated region, written as a comment."""
+
+
+def format_nmredata(
+    *,
+    smiles: str,
+    solvent: str | None,
+    larmor_mhz: float | None,
+    signals: tuple[NmredataSignal, ...] | list[NmredataSignal],
+    assignments: Mapping[str, tuple[int, ...]] | None = None,
+    title: str = "",
+    notes: Mapping[str, str] | None = None,
+) -> str:
+    """One NMReDATA 1.1 record (an SD-file record) of a structure, its 1H signals and their assignment.
+
+    Parameters
+    ----------
+    smiles
+        The structure; written with explicit hydrogens so assignments can name them.
+    signals
+        The observed signals; each becomes a line of ``NMREDATA_1D_1H`` (``shift, L=label, N=n``).
+    assignments
+        Signal label -> 0-based indices of the heavy atoms whose hydrogens the signal holds; written
+        in ``NMREDATA_ASSIGNMENT`` as the 1-based numbers of those explicit hydrogen atoms.
+    notes
+        Extra data items (tag -> text) written after the NMReDATA ones (e.g. how the assignment was made).
+
+    Lines inside a tag end with a backslash, as NMReDATA 1.1 writes them (Pupier et al., Magn. Reson.
+    Chem. 2018, 56, 703; from memory); :func:`read_nmredata` reads both forms.
+    """
+    Chem = _rdkit()
+    from rdkit.Chem import AllChem
+
+    mol = Chem.MolFromSmiles(smiles)
+    if mol is None:
+        raise ValueError(f"smiles: {smiles!r} is not a readable structure")
+    mol = Chem.AddHs(mol)
+    AllChem.Compute2DCoords(mol)
+    if title:
+        mol.SetProp("_Name", title.replace("\n", " ")[:80])
+    block = Chem.MolToMolBlock(mol).rstrip("\n")
+
+    def item(tag: str, lines: list[str]) -> str:
+        return f">  <{tag}>\n" + "".join(f"{ln}\\\n" for ln in lines) + "\n"
+
+    out = [block + "\n", item("NMREDATA_VERSION", ["1.1"])]
+    if solvent:
+        out.append(item("NMREDATA_SOLVENT", [solvent]))
+    out.append(item("NMREDATA_SMILES", [Chem.MolToSmiles(Chem.RemoveHs(mol))]))
+    by_label = {s.label: s for s in signals}
+    assigned = []
+    for label, heavy in (assignments or {}).items():
+        sig = by_label.get(label)
+        if sig is None:
+            continue
+        hs = sorted({n.GetIdx() + 1 for a in heavy for n in mol.GetAtomWithIdx(int(a)).GetNeighbors() if n.GetAtomicNum() == 1})
+        if hs:
+            assigned.append(f"{label}, {sig.shift_ppm:.4f}, " + ", ".join(str(h) for h in hs))
+    if assigned:
+        out.append(item("NMREDATA_ASSIGNMENT", assigned))
+    lines = [f"Larmor={larmor_mhz:.4f}"] if larmor_mhz else []
+    for s in signals:
+        line = f"{s.shift_ppm:.4f}, L={s.label}"
+        if s.n_h is not None:
+            line += f", N={s.n_h:.0f}" if abs(s.n_h - round(s.n_h)) < 0.05 else f", N={s.n_h:.2f}"
+        if s.range_ppm is not None:
+            line += f" ; {s.range_ppm[0]:.4f}-{s.range_ppm[1]:.4f} ppm"
+        lines.append(line)
+    out.append(item("NMREDATA_1D_1H", lines))
+    for tag, text in (notes or {}).items():
+        out.append(item(tag, [ln for ln in str(text).splitlines() if ln.strip()] or [""]))
+    return "".join(out) + "$$$$\n"
+
+
+def write_nmredata(path: str | os.PathLike, records: list[str] | tuple[str, ...]) -> Path:
+    """Write records made by :func:`format_nmredata` to one ``.nmredata.sdf`` file."""
+    p = Path(path)
+    p.write_text("".join(records), encoding="utf-8")
+    return p

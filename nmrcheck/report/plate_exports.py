@@ -10,6 +10,7 @@ from typing import Any, Iterable, Mapping
 
 from nmrcheck.plate.results import WellResult
 from nmrcheck.report.amount_text import amount_line
+from nmrcheck.report.triage import WellLine, well_line
 
 __all__ = ["CSV_COLUMNS", "amount_text", "recommendation_text", "well_row", "write_csv", "write_json"]
 
@@ -17,6 +18,21 @@ CSV_COLUMNS = (
     "well",
     "verdict",
     "status",
+    "category",
+    "concern",
+    "name",
+    "smiles",
+    "purity",
+    "h_as_judged",
+    "reason",
+    "next_step",
+    "assay",
+    "assay_value",
+    "assay_unit",
+    "assay_threshold",
+    "active",
+    "known",
+    "related_wells",
     "total_h",
     "total_h_low",
     "total_h_high",
@@ -76,8 +92,10 @@ def recommendation_text(rec: Mapping[str, Any] | None) -> str:
     return f"{rec.get('decision', '')} ({rec.get('experiment', '')})"
 
 
-def well_row(result: WellResult) -> dict[str, str]:
-    """One flat row of text cells for a well (CSV and the report's table)."""
+def well_row(result: WellResult, line: WellLine | None = None) -> dict[str, str]:
+    """One flat row of text cells for a well (the CSV export)."""
+    line = line or well_line(result)
+    a = line.activity
     count = result.count or {}
     proc = result.processing or {}
     hrms = [c for c in result.candidates if c.get("kind") == "formula" and "hrms" in str(c.get("source", ""))]
@@ -90,6 +108,21 @@ def well_row(result: WellResult) -> dict[str, str]:
         "well": result.well,
         "verdict": result.verdict,
         "status": result.status,
+        "category": line.category,
+        "concern": line.concern,
+        "name": line.name,
+        "smiles": line.smiles,
+        "purity": line.purity,
+        "h_as_judged": line.count,
+        "reason": line.reason,
+        "next_step": line.next_step,
+        "assay": a.assay if a else "",
+        "assay_value": _num(a.value) if a else "",
+        "assay_unit": a.unit if a else "",
+        "assay_threshold": _num(a.threshold) if a else "",
+        "active": "" if a is None or a.active is None else ("yes" if a.active else "no"),
+        "known": line.known,
+        "related_wells": " ".join(line.related),
         "total_h": _fmt(count.get("total_h"), 1),
         "total_h_low": _fmt(count.get("total_h_low"), 1),
         "total_h_high": _fmt(count.get("total_h_high"), 1),
@@ -101,7 +134,7 @@ def well_row(result: WellResult) -> dict[str, str]:
         "best_formula": _fmt(best.get("formula")) if best else "",
         "best_formula_error_ppm": _fmt(best.get("error_ppm")) if best else "",
         "named_candidates": "; ".join(str(n) for n in named if n),
-        "amount": amount_text(amount),
+        "amount": line.amount_detail,
         "amount_nmol": _num(amount.get("nmol")),
         "amount_ug": _num(amount.get("ug")),
         "amount_conc_mM": _num(amount.get("conc_mM")),
@@ -121,20 +154,48 @@ def well_row(result: WellResult) -> dict[str, str]:
     }
 
 
-def write_csv(results: Iterable[WellResult], path: str | os.PathLike) -> Path:
-    """One row per well, columns :data:`CSV_COLUMNS`."""
+def write_csv(results: Iterable[WellResult], path: str | os.PathLike, *, lines: Mapping[str, WellLine] | None = None) -> Path:
+    """One row per well, columns :data:`CSV_COLUMNS` (UTF-8: units are written µg, µL, ±)."""
     p = Path(path)
+    lines = lines or {}
     with open(p, "w", newline="", encoding="utf-8") as fh:
         writer = csv.DictWriter(fh, fieldnames=list(CSV_COLUMNS))
         writer.writeheader()
         for r in results:
-            writer.writerow(well_row(r))
+            writer.writerow(well_row(r, lines.get(r.well)))
     return p
 
 
-def write_json(results: Iterable[WellResult], path: str | os.PathLike, *, run: Mapping[str, Any] | None = None) -> Path:
-    """Every field of every well's result (without the display trace), with the run's description."""
+def _triage_dict(line: WellLine) -> dict[str, Any]:
+    return {
+        "category": line.category,
+        "concern": line.concern,
+        "name": line.name,
+        "formula": line.formula,
+        "smiles": line.smiles,
+        "purity": line.purity,
+        "h_as_judged": line.count,
+        "h_detail": line.count_detail,
+        "amount_ug": line.amount_ug,
+        "next_step": line.next_step,
+        "reason": line.reason,
+        "known": line.known,
+        "related_wells": list(line.related),
+    }
+
+
+def write_json(results: Iterable[WellResult], path: str | os.PathLike, *, run: Mapping[str, Any] | None = None,
+               lines: Mapping[str, WellLine] | None = None, assay: Mapping[str, Any] | None = None) -> Path:
+    """Every field of every well's result (without the display trace), its triage line and assay readout, and the run."""
     p = Path(path)
-    doc = {"run": dict(run or {}), "wells": [r.as_dict() for r in results]}
+    lines = lines or {}
+    wells = []
+    for r in results:
+        d = r.as_dict()
+        line = lines.get(r.well) or well_line(r, (assay or {}).get(r.well))
+        d["triage"] = _triage_dict(line)
+        d["assay"] = line.activity.as_dict() if line.activity is not None else None
+        wells.append(d)
+    doc = {"run": dict(run or {}), "wells": wells}
     p.write_text(json.dumps(doc, indent=1, sort_keys=True, default=str), encoding="utf-8")
     return p

@@ -88,5 +88,5 @@ def test_exports_and_report_show_amount_and_recommendation(results, tmp_path):
     well = next(w for w in doc["wells"] if w["well"] == "A1")
     assert well["amount"]["nmol"] == results["A1"].amount["nmol"] and well["recommendation"]["decision"] == "go"
     html = render_plate_report(results)
-    assert a1["amount"] in html and "go (1H-13C HSQC)" in html
+    assert a1["amount"] in html and "go: 1H-13C HSQC" in html  # the next step names its experiment
     assert "reaches the 30 nmol" in html  # the reason, from the recommendation

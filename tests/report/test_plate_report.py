@@ -5,8 +5,6 @@ from __future__ import annotations
 import csv
 import json
 import re
-import shutil
-import subprocess
 from html.parser import HTMLParser
 
 import pytest
@@ -88,38 +86,46 @@ def test_exports_hold_the_same_results(report):
         assert by_well[w]["amount"] in html
 
 
-def _chromium():
-    for name in ("chromium", "chromium-browser"):
-        path = shutil.which(name)
-        if path:
-            return path
-    return None
+def test_cli_report_joins_an_assay_and_keeps_it(screened_plate, tmp_path):
+    """`plate report --assay`: readouts in the exports and kept for the next report; a bad file is one line, exit 2."""
+    from click.testing import CliRunner
+
+    from nmrcheck.cli import main
+
+    import shutil
+
+    _, shared, _ = screened_plate
+    out = tmp_path / "results"
+    shutil.copytree(shared, out)  # the shared plate's folder stays without an assay
+    assay = tmp_path / "assay.csv"
+    assay.write_text("well,value,unit,threshold\nA1,81,%,50\nA2,7,%,50\n", encoding="utf-8")
+    done = CliRunner().invoke(main, ["plate", "report", str(out), "--assay", str(assay)])
+    assert done.exit_code == 0, done.output
+    with open(out / "results.csv", encoding="utf-8", newline="") as fh:
+        rows = {r["well"]: r for r in csv.DictReader(fh)}
+    assert rows["A1"]["active"] == "yes" and rows["A2"]["active"] == "no" and rows["A3"]["active"] == ""
+    assert (out / "assay.csv").is_file()
+    done = CliRunner().invoke(main, ["plate", "report", str(out)])
+    assert done.exit_code == 0
+    doc = json.loads((out / "results.json").read_text(encoding="utf-8"))
+    a1 = next(w for w in doc["wells"] if w["well"] == "A1")
+    assert a1["assay"]["active"] is True and a1["triage"]["name"]
+    bad = tmp_path / "bad.csv"
+    bad.write_text("well,value\nA1,lots\n", encoding="utf-8")
+    done = CliRunner().invoke(main, ["plate", "report", str(out), "--assay", str(bad)])
+    assert done.exit_code == 2 and "line 2, value: 'lots' is not a number" in done.output
+    assert len(done.output.strip().splitlines()) == 1
 
 
-@pytest.mark.slow
-def test_renders_in_headless_chromium(report, tmp_path):
-    """Chromium's serialised DOM after load: the plate map holds every well, the note is text, not markup."""
-    browser = _chromium()
-    if browser is None:
-        pytest.skip("chromium is not installed (Debian package 'chromium')")
-    manifest, _, path = report
-    cmd = [
-        browser, "--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
-        "--disable-component-update", "--disable-sync", "--no-first-run", f"--user-data-dir={tmp_path / 'profile'}",
-        "--dump-dom", path.as_uri(),
-    ]
-    done = subprocess.run(cmd, capture_output=True, text=True, timeout=120)
-    assert done.returncode == 0, done.stderr[-2000:]
-    dom = done.stdout
-    parser = _Collector()
-    parser.feed(dom)
-    on_map = {a.get("data-well") for t, a in parser.tags if t == "a" and "well" in (a.get("class") or "").split()}
-    assert on_map == {w.well for w in manifest.wells}
-    # An unescaped note would have been parsed into a <b> element, serialised as "<b>yellow band</b>".
-    assert "yellow band</b>" not in dom
-    assert "&lt;b&gt;yellow band&lt;/b&gt;" in dom
-    assert "<script>alert" not in dom
-    shot = tmp_path / "page.png"
-    cmd[-2:] = ["--window-size=1200,900", f"--screenshot={shot}", path.as_uri()]
-    done = subprocess.run(cmd, capture_output=True, text=True, timeout=120)
-    assert done.returncode == 0 and shot.stat().st_size > 10_000
+def test_nmredata_record_per_well(report):
+    """Each screened well with a candidate structure gets an NMReDATA file the reader takes back."""
+    from nmrcheck.io.nmredata import read_nmredata
+
+    _, out, _ = report
+    files = sorted((out / "nmredata").glob("*.nmredata.sdf"))
+    assert len(files) >= 15
+    rec = read_nmredata(files[0])
+    assert rec.tags["NMREDATA_VERSION"] == "1.1" and rec.spectra["1H"].peaks
+    # Every assignment names hydrogens of the structure, at a shift the 1D list holds.
+    shifts = {p.shift_ppm for p in rec.spectra["1H"].peaks}
+    assert all(a.hydrogen and a.shift_ppm in shifts for a in rec.assignments)

@@ -1,0 +1,77 @@
+"""The triage line of a well: which candidate it speaks of, its name, and the one reason."""
+
+from __future__ import annotations
+
+from nmrcheck.data import load_table, user_citation
+from nmrcheck.io.assay import AssayReadout
+from nmrcheck.plate.results import WellResult
+from nmrcheck.report.triage import display_units, format_amount, triage, well_line
+
+
+def _result(well="A1", verdict="inconsistent", **kw):
+    candidates = (
+        {"key": "c1", "kind": "formula", "formula": "C10H12O2", "source": "manifest+hrms", "rank": 1},
+        {"key": "c2", "kind": "structure", "formula": "C10H12O2", "name": "eugenol", "smiles": "COc1cc(CC=C)ccc1O", "source": "manifest"},
+    )
+    checks = (
+        {"key": "c1", "label": "C10H12O2", "formula": "C10H12O2", "verdict": "consistent", "rank": 1, "counted_h": 12, "checks": [], "reasons": ["fits"]},
+        {"key": "c2", "label": "eugenol", "formula": "C10H12O2", "verdict": "inconsistent", "rank": 2, "counted_h": 12,
+         "checks": [{"name": "mass", "status": "pass", "explanation": "ok"}, {"name": "shift regions", "status": "fail", "explanation": "aromatic region holds 0.0 H where 3 are expected"}],
+         "reasons": []},
+    )
+    base = dict(well=well, status="done", verdict=verdict, candidates=candidates, checks=checks,
+                count={"total_h": 14.0, "total_h_low": 13.3, "total_h_high": 14.7, "integer_h": 14},
+                amount={"nmol": 59.4, "ug": 9.76, "conc_mM": 1.7, "uncertainty_pct": 20.0, "method": "solvent residual", "basis": "C10H12O2 (12 H)"},
+                recommendation={"decision": "go", "experiment": "1H-13C HSQC", "reasons": ["59.4 nmol (at least 35.6 at k=2) reaches the 30 nmol"],
+                                "threshold_source": "common practice for microcryoprobes (from memory; varies several-fold with probe)"})
+    base.update(kw)
+    return WellResult(**base)
+
+
+def test_contradicted_structure_is_not_hidden_behind_a_fitting_formula():
+    line = well_line(_result())
+    assert line.name == "eugenol" and line.concern == "contradicted" and line.category == "attention"
+    assert line.reason.startswith("shift regions: aromatic region holds 0.0 H")
+    assert line.count == "12 H"
+
+
+def test_name_not_formula_and_units_with_symbols():
+    line = well_line(_result(verdict="consistent", checks=(_result().checks[0],)))
+    assert line.name == "eugenol" and line.formula == "C10H12O2"
+    assert line.category == "ready" and line.next_step == "go: 1H-13C HSQC"
+    assert line.amount == "9.8 µg" and "± 20 %" in line.amount_detail and "59.4 nmol" in line.amount_detail
+    assert "from memory" not in line.next_detail and "varies several-fold" in line.next_detail
+
+
+def test_ambiguous_count_is_shown_both_ways():
+    r = _result(verdict="consistent", count={"total_h": 7.0, "integer_h": 7, "ambiguous": True, "alternative_totals": [14.0]})
+    line = well_line(r)
+    assert line.count == "ambiguous: 7 or 14 H" and line.concern == "ambiguous count"
+
+
+def test_active_wells_lead_each_list():
+    results = {"A1": _result("A1", "consistent"), "A2": _result("A2", "consistent"), "A3": _result("A3")}
+    assay = {"A2": AssayReadout("A2", 80.0, "%", 50.0), "A1": AssayReadout("A1", 10.0, "%", 50.0)}
+    attention, ready = triage(results, assay)
+    assert [ln.well for ln in ready] == ["A2", "A1"] and [ln.well for ln in attention] == ["A3"]
+
+
+def test_purity_and_known_fields_shown_when_present():
+    r = _result(verdict="consistent")
+    object.__setattr__(r, "purity", {"call": "major compound with impurities", "impurity_pct": 12.0})
+    line = well_line(r)
+    assert line.purity == "major compound with impurities (about 12 %)"
+    object.__setattr__(r, "purity", "mixture")
+    assert well_line(r).concern == "mixture"
+
+
+def test_no_shipped_source_shows_from_memory_to_users():
+    for name in ("solvents", "standards", "recommendation_defaults", "ion_species"):
+        for row in load_table(name):
+            cited = user_citation(row["source"])
+            assert "memory" not in cited.lower() and cited, (name, row["source"])
+
+
+def test_display_units():
+    assert display_units("20.9 nmol +- 20 %, 3.2 ug in 35 uL") == "20.9 nmol ± 20 %, 3.2 µg in 35 µL"
+    assert format_amount(None) == ("", None, "")
