@@ -263,6 +263,7 @@ def _sp3(view: MolView, c0: int) -> _Estimate:
             rule = f"Shoolery 0.23; {found[0][0]} +{found[0][1]:.2f}; {found[1][0]} +{found[1][1]:.2f}"
             return _Estimate(ppm, n_h, shift_class, _tables.class_tolerance(shift_class), rule)
     terms, missing = _beauchamp_marquez_terms(view, c0)
+    terms = _saturated_hetero_terms(terms)
     base = _tables.base_value(_SP3_BASE_KEY[n_base]).ppm
     ppm = base + sum(v for _, _, v in terms)
     label = {3: "CH3", 2: "CH2", 1: "CH"}[n_base]
@@ -271,6 +272,32 @@ def _sp3(view: MolView, c0: int) -> _Estimate:
     parts += [f"no increment for {m}" for m in missing]
     tol = _tables.class_tolerance(shift_class) + (_tables.tolerance_widening("missing increment") if missing else 0.0)
     return _Estimate(ppm, n_h, shift_class, tol, "; ".join(parts))
+
+
+#: Substituents whose beta/gamma terms saturate once an O or N sits alpha (polyols, amino alcohols).
+_HETERO_KEYS = frozenset({"OH", "OR", "O-vinyl", "OAr", "OC(=O)R", "OC(=O)Ar", "NR2", "NHC(=O)R", "N-aryl", "N-aromatic", "NR3+", "OSO2R"})
+
+
+def _saturated_hetero_terms(terms: list[tuple[str, str, float]]) -> list[tuple[str, str, float]]:
+    """Drop beta and gamma O/N terms when an O or N is already alpha, keeping the largest single beta term.
+
+    Additive increments over-count neighbouring oxygens: in sugars and polyols every CH(O) sits at
+    3.2-3.9 ppm whatever the number of OH around it, while the sum of beta/gamma OH terms would put
+    it at 4.5-4.8 (error up to 1.7 ppm on D-glucose in DMSO-d6, NMReDATA record of cheminfo/nmr-dataset1).
+    The beta and gamma effects of O/N on a carbon that already bears O/N are small (Pretsch et al.,
+    tables of polyols; from memory), so only the largest beta O/N term is kept, halved.
+    """
+    if not any(pos == "alpha" and key in _HETERO_KEYS for pos, key, _ in terms):
+        return terms
+    far = [t for t in terms if t[0] != "alpha" and t[1] in _HETERO_KEYS]
+    if not far:
+        return terms
+    kept = [t for t in terms if t not in far]
+    betas = [t for t in far if t[0] == "beta"]
+    if betas:
+        pos, key, v = max(betas, key=lambda t: t[2])
+        kept.append((pos, key + " (saturated, halved)", v / 2))
+    return kept
 
 
 def _acetal(groups: list[Group], on: list[Group], n_h: int) -> str | None:
