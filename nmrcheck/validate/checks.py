@@ -43,6 +43,9 @@ __all__ = [
     "check_unsaturation",
     "check_shift_regions",
     "check_signal_count",
+    "check_assignment",
+    "register_check",
+    "CHECKS",
     "all_checks",
 ]
 
@@ -267,6 +270,9 @@ def best_fit(candidate: Candidate, evidence: Evidence) -> CountFit | None:
 
 def check_proton_count(candidate: Candidate, evidence: Evidence) -> CheckResult:
     """Visible H the candidate should show against the integrals anchored to that number."""
+    covered = _covered("proton count", candidate)
+    if covered is not None:
+        return covered
     why = nmr_usable(evidence)
     if why:
         return _na("proton count", why)
@@ -399,6 +405,9 @@ def _structure_fit(name: str, candidate: Candidate, evidence: Evidence, bare: st
 
 def check_shift_regions(candidate: Candidate, evidence: Evidence) -> CheckResult:
     """Predicted shift distribution of a structure against the observed integrals (counts per region, EMD per H)."""
+    covered = _covered("shift regions", candidate)
+    if covered is not None:
+        return covered
     got = _structure_fit("shift regions", candidate, evidence, "a bare formula predicts no shifts")
     if isinstance(got, CheckResult):
         return got
@@ -431,6 +440,9 @@ def check_shift_regions(candidate: Candidate, evidence: Evidence) -> CheckResult
 
 def check_signal_count(candidate: Candidate, evidence: Evidence) -> CheckResult:
     """Distinct H environments of a structure against resolved signal groups (warn only: overlap is common)."""
+    covered = _covered("signal count", candidate)
+    if covered is not None:
+        return covered
     got = _structure_fit("signal count", candidate, evidence, "a bare formula has no environments to count")
     if isinstance(got, CheckResult):
         return got
@@ -449,9 +461,87 @@ def check_signal_count(candidate: Candidate, evidence: Evidence) -> CheckResult:
     )
 
 
-def all_checks(candidate: Candidate, evidence: Evidence) -> tuple[CheckResult, ...]:
-    """Every check, in report order."""
-    return tuple(
-        f(candidate, evidence)
-        for f in (check_mass, check_isotopes, check_proton_count, check_unsaturation, check_shift_regions, check_signal_count)
+# ----------------------------------------------------------------------------- assignment
+
+#: Share of a structure's required H that may miss before the structure is rejected (with at least MISFIT_FAIL_H).
+MISFIT_FAIL_SHARE = 0.15
+MISFIT_FAIL_H = 2
+#: Below this support (exp(-mean cost per H / 2)) the assignment is only a rough fit: a mean cost per H above
+#: 1.4, i.e. each H on average more than 1.2 calibrated tolerances off.
+SUPPORT_WARN = 0.5
+
+
+def _covered(name: str, candidate: Candidate) -> CheckResult | None:
+    """For a structure the assignment replaces the count-only checks: their not-applicable result."""
+    if candidate.mol is not None:
+        return _na(name, "a structure is judged by its assignment (see 'assignment')")
+    return None
+
+
+def check_assignment(candidate: Candidate, evidence: Evidence) -> CheckResult:
+    """Predicted H environments assigned to the observed signals (shift, H count, multiplet); see :mod:`nmrcheck.validate.assign`."""
+    if candidate.mol is None:
+        return _na("assignment", "a bare formula predicts no environments")
+    why = nmr_usable(evidence)
+    if why:
+        return _na("assignment", why)
+    from nmrcheck.validate.assign import assign
+
+    try:
+        a = assign(candidate, evidence)
+    except CandidateError as exc:
+        return _na("assignment", f"no assignment: {exc}")
+    misfits = a.misfits
+    missing = [e for e in misfits if e.status == "missing"]
+    share = a.misfit_h / max(1, a.required_h)
+    fitted = sum(e.n_h for e in a.environments if e.required and e.fits)
+    observed = f"{fitted} of {a.required_h} H placed within tolerance; {100 * a.explained_share:.0f} % of the counted integral explained"
+    expected = f"{len(a.environments)} environments ({a.predictor})"
+    if (a.misfit_h >= MISFIT_FAIL_H and share >= MISFIT_FAIL_SHARE) or any(e.n_h >= 2 for e in missing):
+        status = "fail"
+    elif misfits or a.support < SUPPORT_WARN:
+        status = "warn"
+    else:
+        status = "pass"
+    if misfits:
+        text = f"{a.misfit_h} of {a.required_h} H do not fit ({a.predictor}): " + "; ".join(e.describe() for e in misfits[:4])
+    else:
+        text = f"every environment fits a signal ({a.predictor}; joint misfit {a.cost:.1f} over {a.required_h} H, support {a.support:.2f})"
+    hidden = [e for e in a.environments if e.status == "hidden"]
+    if hidden:
+        text += "; " + ", ".join(f"{e.label} at {e.predicted_ppm:.1f} ppm {e.note}" for e in hidden)
+    return CheckResult(
+        "assignment", status, observed, expected, text, WEIGHTS["assignment"],
+        {"support": a.support, "assignment": a, "predictor": a.predictor, "unit": a.unit, "visible_h": a.visible_h},
     )
+
+
+WEIGHTS["assignment"] = 3.0
+
+#: The checks every candidate goes through, in report order. Other modules add theirs with :func:`register_check`.
+CHECKS: list = []
+
+
+def register_check(check, *, weight: float, after: str | None = None) -> None:
+    """Add ``check(candidate, evidence) -> CheckResult`` to the checks every candidate goes through.
+
+    ``weight`` is how much it counts in the score; ``after`` names the check function it follows
+    (default: the end). Registering the same function twice is ignored.
+    """
+    if check in CHECKS:
+        return
+    WEIGHTS[check.__name__.removeprefix("check_").replace("_", " ")] = weight
+    if after is None:
+        CHECKS.append(check)
+    else:
+        idx = next(i for i, f in enumerate(CHECKS) if f.__name__ == after)
+        CHECKS.insert(idx + 1, check)
+
+
+for _check in (check_mass, check_isotopes, check_proton_count, check_unsaturation, check_assignment, check_shift_regions, check_signal_count):
+    CHECKS.append(_check)
+
+
+def all_checks(candidate: Candidate, evidence: Evidence) -> tuple[CheckResult, ...]:
+    """Every registered check, in report order."""
+    return tuple(f(candidate, evidence) for f in CHECKS)

@@ -10,7 +10,7 @@ from nmrcheck.chem.candidates import DEFAULT_TOLERANCE_PPM
 from nmrcheck.chem.formula import Formula
 from nmrcheck.errors import ParameterError
 
-__all__ = ["Candidate", "CandidateProblem", "MsFeature", "ObservedRegion", "Evidence", "CheckResult", "CandidateVerdict", "STATUSES", "VERDICTS"]
+__all__ = ["WellFeature", "Candidate", "CandidateProblem", "MsFeature", "ObservedRegion", "Evidence", "CheckResult", "CandidateVerdict", "STATUSES", "VERDICTS"]
 
 #: Status of one check, from supporting to contradicting.
 STATUSES = ("pass", "warn", "fail", "not-applicable")
@@ -71,6 +71,12 @@ class ObservedRegion:
     end_ppm: float
     integral: float
     peak_ppm: float
+    lines: int | None = None
+    """Resolved lines (local maxima above a tenth of the tallest and above the noise); None when not measured."""
+    spread_hz: float | None = None
+    """Distance between the outermost of those lines, Hz (0 for one line)."""
+    linewidth_hz: float | None = None
+    """Full width at half height of the tallest line, Hz."""
 
     @property
     def centre_ppm(self) -> float:
@@ -94,6 +100,18 @@ class Evidence:
     snr: float
     ms: MsFeature | None = None
     warnings: tuple[str, ...] = ()
+    spectrometer_mhz: float | None = None
+    ms_features: tuple["WellFeature", ...] = ()
+    """Other MS features of the same well with their share of the ion current (purity evidence); may be empty."""
+
+
+@dataclass(frozen=True)
+class WellFeature:
+    """One MS feature seen in a well, as purity evidence: its m/z and its share of the well's ion current (%)."""
+
+    mz: float
+    share_pct: float
+    label: str = ""
 
 
 @dataclass(frozen=True)

@@ -18,7 +18,8 @@ def verdict_of(checks: Iterable[CheckResult], evidence: Evidence) -> tuple[str, 
     checks = tuple(checks)
     applicable = [c for c in checks if c.status in _STATUS_SCORE]
     weight = sum(c.weight for c in applicable)
-    score = sum(c.weight * _STATUS_SCORE[c.status] for c in applicable) / weight if weight else 0.0
+    # a check that measures how well (the assignment's support) counts with that measure, capped by its status
+    score = sum(c.weight * min(_STATUS_SCORE[c.status], c.details.get("support", 1.0)) for c in applicable) / weight if weight else 0.0
     ordered = sorted(checks, key=lambda c: (_STATUS_ORDER[c.status], -c.weight))
     reasons = [c.explanation for c in ordered if c.status != "not-applicable"]
     missing = []

@@ -24,15 +24,8 @@ COMPOUNDS = [
     "492-62-6", "50-78-2", "517920-70-6", "620-71-3", "623-47-2", "623-70-1", "91-64-5",
 ]
 
-#: Own structure not 'consistent' (measured): why.
-OWN_MISSES = {
-    "2759-55-9": "inconsistent: the water line sits at 1.65 ppm, off its 1.56 ppm table position, is counted, and comes out as 0.57 H at 13 H",
-    "16485-10-2": "doubtful: predicted shifts 0.52 ppm per H from the observed; heteroatom-substituted sp3 region holds 9.1 H where 6 are expected (OH/NH in CDCl3 broad and shifted)",
-    "2216-51-5": "doubtful: anchored to 20 H the signals only roughly fit whole numbers (the 0.83 ppm signal comes out as 0.64 H)",
-    "403-40-7": "doubtful: predicted shifts 0.83 ppm per H from the observed; aliphatic region holds 5.1 H where 3 are expected (NH2 + impurity)",
-    "50-78-2": "doubtful: predicted shifts 0.51 ppm per H from the observed (just over the 0.5 ppm pass limit)",
-    "517920-70-6": "inconsistent: at 4 H the 3.36 ppm impurity comes out as 0.55 H and the signals add to 5 whole H",
-}
+#: Own structure not 'consistent' (measured): why. Empty since the assignment-based check.
+OWN_MISSES: dict[str, str] = {}
 #: Formula with 2 H more or fewer not 'inconsistent' from the spectrum alone (no MS feature):
 #: the integrals anchor to the wrong H count as well as to the right one (a formula may lack
 #: exchangeable H), and the unsaturation minimum is not violated.
@@ -62,7 +55,8 @@ def _get(recordings, name):
 
 
 def _ms(candidate):
-    return MsFeature(((ion_mz(candidate.formula.monoisotopic_mass, "[M+H]+"), "[M+H]+"),), ppm=5.0)
+    """[M+H]+ of the structure's formula, checked within 1.5 ppm."""
+    return MsFeature(((ion_mz(candidate.formula.monoisotopic_mass, "[M+H]+"), "[M+H]+"),), ppm=1.5)
 
 
 def _shifted(formula, dh):
