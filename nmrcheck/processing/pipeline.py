@@ -19,6 +19,7 @@ from nmrcheck.processing.regions import find_regions
 from nmrcheck.processing.results import PhaseCorrection, Processed
 from nmrcheck.processing.solvents import AQUEOUS, normalise_solvent
 from nmrcheck.processing.spectrum import ProcessingStep, Spectrum
+from nmrcheck.processing.suppression import suppression_zone
 from nmrcheck.processing.transform import fourier_transform, spectrum_from_file
 
 __all__ = ["ProcessingOptions", "process", "snr_of"]
@@ -46,8 +47,9 @@ class ProcessingOptions:
     """Smallest integral, in standard deviations of its own noise, that is counted."""
     merge_hz: float = 6.0
     anchor_h: int | None = None
-    suppression_halfwidth_ppm: float = 0.25
-    """Half-width left out around the carrier when the pulse program presaturates."""
+    suppression_halfwidth_ppm: float = 0.6
+    """Largest half-width left out around the carrier when the pulse program presaturates
+    (the zone actually left out is measured on the spectrum)."""
 
     def __post_init__(self) -> None:
         if self.lb_hz < -5 or self.lb_hz > 50:
@@ -64,7 +66,12 @@ class ProcessingOptions:
 
 
 def _suppression_ranges(spectrum: Spectrum, options: ProcessingOptions) -> list[tuple[float, float]]:
-    """Ranges spoiled by solvent suppression: around the carrier when the pulse program presaturates."""
+    """Ranges spoiled by solvent suppression: around the carrier when the pulse program presaturates.
+
+    The zone's width is measured on the spectrum (:func:`suppression_zone`), so that
+    lines beside a well-suppressed line are counted; ``suppression_halfwidth_ppm``
+    caps it.
+    """
     acq = spectrum.acquisition
     prog = (acq.pulse_program or "").lower()
     solvent = normalise_solvent(options.solvent or acq.solvent)
@@ -76,8 +83,13 @@ def _suppression_ranges(spectrum: Spectrum, options: ProcessingOptions) -> list[
         centre = spectrum.first_ppm - spectrum.step_ppm * spectrum.size / 2.0
     else:
         centre = 4.79
-    h = options.suppression_halfwidth_ppm
-    return [(centre - h, centre + h)]
+    cap = options.suppression_halfwidth_ppm
+    return [suppression_zone(spectrum, centre, min_half_ppm=min(0.04, cap), max_half_ppm=cap)]
+
+
+#: Lines this close outside a suppression zone are still distorted by it (partial
+#: saturation, the zone's own sloping foot): they are read but do not steer the phase.
+PHASE_GUARD_PPM = 0.1
 
 
 def snr_of(spectrum: Spectrum, regions, noise: float) -> float:
@@ -126,7 +138,8 @@ def process(source: Fid | SpectrumFile | str | os.PathLike, options: ProcessingO
     elif already_phased:
         phase = PhaseCorrection(0.0, 0.0, spec.first_ppm, "as processed by the instrument software")
     else:
-        spec, phase = auto_phase(spec, exclude_ppm=exclude)
+        guard = [(lo - PHASE_GUARD_PPM, hi + PHASE_GUARD_PPM) for lo, hi in exclude]
+        spec, phase = auto_phase(spec, exclude_ppm=guard)
         if phase.peaks_used == 0:
             warnings.append("no peak above noise to phase on; spectrum left unphased")
     spec = correct_baseline(spec, method=opts.baseline, smoothness_hz=opts.baseline_smoothness_hz)
