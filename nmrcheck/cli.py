@@ -24,6 +24,86 @@ def _quiet_libraries() -> None:
         pass
 
 
+class Number(click.ParamType):
+    """A finite number within bounds: ``nan``, ``inf`` and out-of-range values are refused by name."""
+
+    name = "number"
+
+    def __init__(self, lo: float | None = None, hi: float | None = None, *, integer: bool = False) -> None:
+        self.lo, self.hi, self.integer = lo, hi, integer
+        self.name = "integer" if integer else "number"
+
+    def convert(self, value, param, ctx):
+        import math
+
+        if isinstance(value, (int, float)) and not isinstance(value, bool):
+            v = value
+        else:
+            text = str(value).strip()
+            try:
+                v = int(text) if self.integer else float(text)
+            except ValueError:
+                self.fail(f"{value!r} is not {'a whole number' if self.integer else 'a number'}", param, ctx)
+        if not math.isfinite(v):
+            self.fail(f"{value!r} is not a finite number", param, ctx)
+        if (self.lo is not None and v < self.lo) or (self.hi is not None and v > self.hi):
+            self.fail(f"{value} is outside {self.lo:g}..{self.hi:g}" if self.lo is not None and self.hi is not None else f"{value} is out of range", param, ctx)
+        return v
+
+
+#: Finite numbers without bounds of their own (the library checks the physical range).
+FINITE = Number()
+POSITIVE = Number(0.0, 1e12)
+
+
+def _debug_requested(ctx: click.Context | None) -> bool:
+    import os
+
+    if os.environ.get("NMRCHECK_DEBUG"):
+        return True
+    root = ctx.find_root() if ctx is not None else None
+    return bool(root is not None and (root.obj or {}).get("debug"))
+
+
+class GuardedGroup(click.Group):
+    """The top-level command group: no exception reaches the user as a traceback.
+
+    nmrcheck's own errors and OS errors (a full or read-only disk, a missing folder) become
+    ``nmrcheck: <file>: <problem>`` and exit status 2; anything unexpected becomes one line
+    ``nmrcheck: internal error ...`` with exit status 3 and a hint to rerun with ``--debug``,
+    which shows the traceback.
+    """
+
+    def invoke(self, ctx):
+        from nmrcheck.errors import human_message
+
+        try:
+            return super().invoke(ctx)
+        except (click.exceptions.Exit, click.exceptions.Abort, click.ClickException, SystemExit):
+            raise
+        except KeyboardInterrupt:
+            click.echo("nmrcheck: interrupted", err=True)
+            ctx.exit(130)
+        except Exception as exc:  # noqa: BLE001 - the one place every failure is turned into a line
+            if _debug_requested(ctx):
+                raise
+            if isinstance(exc, (NmrcheckError, OSError)):
+                _echo_error(f"nmrcheck: {human_message(exc)}")
+                ctx.exit(2)
+            if isinstance(exc, MemoryError):
+                _echo_error(f"nmrcheck: {human_message(exc)}")
+                ctx.exit(3)
+            _echo_error(f"nmrcheck: {human_message(exc)}; rerun with --debug (or NMRCHECK_DEBUG=1) to see the traceback, and please report it")
+            ctx.exit(3)
+
+
+def _echo_error(line: str) -> None:
+    try:
+        click.echo(line, err=True)
+    except OSError:  # stderr closed or full: nothing more can be said
+        pass
+
+
 def user_errors(func):
     """Turn an :class:`NmrcheckError` into ``nmrcheck: <message>`` on stderr and exit status 2."""
 
@@ -38,15 +118,18 @@ def user_errors(func):
     return wrapper
 
 
-@click.group(context_settings=CONTEXT)
+@click.group(cls=GuardedGroup, context_settings=CONTEXT)
 @click.version_option(__version__, prog_name="nmrcheck")
 @click.option("-v", "--verbose", count=True, help="More log output (repeat for debug).")
-def main(verbose: int) -> None:
+@click.option("--debug", is_flag=True, help="Show the full traceback of an unexpected failure (also NMRCHECK_DEBUG=1).")
+@click.pass_context
+def main(ctx: click.Context, verbose: int, debug: bool) -> None:
     """Triage 1H micro-NMR spectra and HRMS features of natural-product isolates.
 
     Results are screening aids, not identifications; decisions rest with the
     responsible chemist.
     """
+    ctx.obj = {"debug": debug}
     level = logging.WARNING - 10 * min(verbose, 2)
     logging.basicConfig(level=level, format="%(levelname)s %(message)s", stream=sys.stderr)
     _quiet_libraries()
@@ -57,20 +140,20 @@ def main(verbose: int) -> None:
 
 _QUANT_OPTIONS = (
     click.option("--standard", help="Internal standard by name (see the standards table) or a label for --standard-range."),
-    click.option("--standard-nmol", type=float, help="Amount of the standard in the tube, nmol."),
-    click.option("--standard-conc-mm", "--standard-mM", "standard_conc_mm", type=float, help="Concentration of the standard in the tube, mM."),
+    click.option("--standard-nmol", type=POSITIVE, help="Amount of the standard in the tube, nmol."),
+    click.option("--standard-conc-mm", "--standard-mM", "standard_conc_mm", type=POSITIVE, help="Concentration of the standard in the tube, mM."),
     click.option("--standard-range", help="START:END ppm of a user-defined standard's signal."),
-    click.option("--standard-h", type=int, help="Protons of the user-defined standard's signal."),
+    click.option("--standard-h", type=Number(1, 5000, integer=True), help="Protons of the user-defined standard's signal."),
     click.option("--solvent-reference", is_flag=True, default=False, help="Use the residual solvent signal as the amount reference (needs --deuteration-pct and --volume-ul)."),
-    click.option("--deuteration-pct", "--deuteration", "deuteration_pct", type=float, help="Solvent lot's deuteration grade, atom % D (e.g. 99.8)."),
+    click.option("--deuteration-pct", "--deuteration", "deuteration_pct", type=Number(0, 100), help="Solvent lot's deuteration grade, atom % D (e.g. 99.8)."),
     click.option("--calibration", type=click.Path(exists=True), help="Calibration recording of a known sample on the same probe (PULCON)."),
-    click.option("--calibration-conc-mm", "--calibration-mM", "calibration_conc_mm", type=float, help="Concentration of the calibration compound, mM."),
+    click.option("--calibration-conc-mm", "--calibration-mM", "calibration_conc_mm", type=POSITIVE, help="Concentration of the calibration compound, mM."),
     click.option("--calibration-range", help="START:END ppm of the calibration signal."),
-    click.option("--calibration-h", type=int, help="Protons of the calibration signal."),
-    click.option("--volume-ul", type=float, help="Solution volume in the tube, microlitres."),
+    click.option("--calibration-h", type=Number(1, 5000, integer=True), help="Protons of the calibration signal."),
+    click.option("--volume-ul", type=POSITIVE, help="Solution volume in the tube, microlitres."),
     click.option("--experiment", help="Next experiment for the go/no-go, a name in the thresholds [default: 1H-13C HSQC]."),
     click.option("--thresholds", type=click.Path(exists=True), help="User thresholds file (CSV, JSON or TOML) replacing the defaults."),
-    click.option("--required-ug", type=float, help="Mass the next experiment needs (e.g. a bioassay), ug."),
+    click.option("--required-ug", type=POSITIVE, help="Mass the next experiment needs (e.g. a bioassay), ug."),
 )
 
 
@@ -98,21 +181,40 @@ def _phase_option(value: str | None) -> tuple[float, float] | None:
         return None
     from nmrcheck.errors import ParameterError
 
+    import math
+
     try:
         p0, p1 = (float(x) for x in value.split(","))
     except ValueError:
         raise ParameterError(f"--phase: expected 'P0,P1' in degrees, got {value!r}") from None
+    if not (math.isfinite(p0) and math.isfinite(p1)):
+        raise ParameterError(f"--phase: {value!r} holds a value that is not a finite angle")
     return p0, p1
+
+
+def _output_file(option: str, value: str | None) -> None:
+    """Refuse an output path whose folder does not exist (before any work is done)."""
+    if not value:
+        return
+    from pathlib import Path
+
+    from nmrcheck.errors import ParameterError
+
+    p = Path(value)
+    if p.is_dir():
+        raise ParameterError(f"{option}: {value} is a folder; give a file name")
+    if not p.parent.is_dir():
+        raise ParameterError(f"{option}: folder {p.parent} does not exist")
 
 
 @main.command("process")
 @click.argument("path", type=click.Path(path_type=str))
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of the text summary.")
-@click.option("--size", type=int, default=None, help="Points after zero-filling (power of two).")
-@click.option("--lb", "lb_hz", type=float, default=0.3, show_default=True, help="Exponential line broadening, Hz.")
+@click.option("--size", type=Number(256, 1 << 20, integer=True), default=None, help="Points after zero-filling (power of two, 256 to 1048576).")
+@click.option("--lb", "lb_hz", type=Number(-5, 50), default=0.3, show_default=True, help="Exponential line broadening, Hz (-5 to 50).")
 @click.option("--solvent", default=None, help="Solvent, when the file names none or the wrong one.")
 @click.option("--phase", "phase", default=None, metavar="P0,P1", help="Manual phase in degrees instead of automatic phasing.")
-@click.option("--anchor-h", type=int, default=None, help="Known number of observable protons to anchor the count to.")
+@click.option("--anchor-h", type=Number(1, 5000, integer=True), default=None, help="Known number of observable protons to anchor the count to (1 to 5000).")
 @click.option("--save-spectrum", type=click.Path(path_type=str), default=None, help="Write ppm, real, imag arrays to FILE.npz.")
 @click.option("--plot", "plot_path", type=click.Path(path_type=str), default=None, help="Draw the spectrum with regions to FILE.png.")
 @user_errors
@@ -130,6 +232,8 @@ def process_command(path, as_json, size, lb_hz, solvent, phase, anchor_h, save_s
     from nmrcheck.processing.summary import processed_summary
 
     options = ProcessingOptions(lb_hz=lb_hz, size=size, solvent=solvent, phase=_phase_option(phase), anchor_h=anchor_h)
+    _output_file("--plot", plot_path)
+    _output_file("--save-spectrum", save_spectrum)
     processed = process(path, options)
     summary = processed_summary(processed)
     summary["options"] = options.as_dict()
@@ -163,14 +267,14 @@ def plate_group() -> None:
 @plate_group.command("run", context_settings=CONTEXT)
 @click.argument("manifest", type=click.Path(dir_okay=False))
 @click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False), help="Output folder (results database, report).")
-@click.option("--workers", type=click.IntRange(min=1), default=None, help="Local worker processes [default: every core].")
+@click.option("--workers", type=Number(1, 256, integer=True), default=None, help="Local worker processes, 1 to 256 [default: every core].")
 @click.option("--watch", is_flag=True, help="Keep running; screen recordings as they become complete.")
-@click.option("--time-limit", "time_limit_h", type=click.FloatRange(min=0, min_open=True), default=None, help="Watch mode: stop after this many hours.")
-@click.option("--poll", "poll_s", type=click.FloatRange(min=0.05), default=10.0, show_default=True, help="Watch mode: seconds between looks at the plate folder.")
+@click.option("--time-limit", "time_limit_h", type=Number(1e-6, 10000), default=None, help="Watch mode: stop after this many hours.")
+@click.option("--poll", "poll_s", type=Number(0.05, 86400), default=10.0, show_default=True, help="Watch mode: seconds between looks at the plate folder.")
 @click.option("--redo", is_flag=True, help="Screen wells again even when they have a result for the same options.")
 @click.option("--layout", type=click.Choice(["96", "384"]), default=None, help="Plate format [default: from the well names].")
-@click.option("--lb", "lb_hz", type=float, default=None, help="Line broadening, Hz.")
-@click.option("--mass-tolerance", "mass_tolerance_ppm", type=float, default=None, help=f"HRMS tolerance, ppm [default: {DEFAULT_TOLERANCE_PPM:g}].")
+@click.option("--lb", "lb_hz", type=Number(-5, 50), default=None, help="Line broadening, Hz.")
+@click.option("--mass-tolerance", "mass_tolerance_ppm", type=Number(0, 1000), default=None, help=f"HRMS tolerance, ppm [default: {DEFAULT_TOLERANCE_PPM:g}].")
 @click.option("--scheduler", default=None, help="Dask distributed scheduler address (needs the 'dask' extra) instead of local processes.")
 @click.option("--no-report", is_flag=True, help="Do not write the HTML report and exports at the end.")
 @click.option("--assay", "assay_path", type=click.Path(dir_okay=False), default=None, help="Bioassay readouts per well (CSV: well,value[,unit,threshold,hit_when,assay]) to join in the report.")
@@ -241,7 +345,7 @@ def plate_report(out_dir, title, assay_path) -> None:
 
 @main.command("demo", context_settings=CONTEXT)
 @click.option("--out", "out_dir", type=click.Path(file_okay=False), default="nmrcheck-demo", show_default=True, help="Folder for the demo plate and its results.")
-@click.option("--workers", type=click.IntRange(min=1), default=None, help="Local worker processes [default: every core].")
+@click.option("--workers", type=Number(1, 256, integer=True), default=None, help="Local worker processes, 1 to 256 [default: every core].")
 @user_errors
 def demo(out_dir, workers) -> None:
     """Build an invented 36-well plate of synthetic spectra and screen it end to end."""
@@ -259,9 +363,9 @@ def demo(out_dir, workers) -> None:
 @main.command("quant", context_settings=CONTEXT)
 @click.argument("spectrum", type=click.Path(exists=True))
 @click.option("--range", "analyte_range", multiple=True, help="START:END ppm of the analyte signal (repeatable; default: all counted regions).")
-@click.option("--analyte-h", type=float, help="Protons the analyte ranges hold per molecule.")
+@click.option("--analyte-h", type=Number(0, 5000), help="Protons the analyte ranges hold per molecule.")
 @click.option("--candidate", multiple=True, help="Candidate formula, SMILES or molar mass (g/mol); repeatable.")
-@click.option("--longest-t1", type=float, help="Longest T1 expected for the analyte, s (default 3 s) for the relaxation warning.")
+@click.option("--longest-t1", type=Number(0, 10000), help="Longest T1 expected for the analyte, s (default 3 s) for the relaxation warning.")
 @click.option("--json", "as_json", is_flag=True, help="Print the result as JSON.")
 @user_errors
 @quant_options
@@ -311,9 +415,9 @@ def quant_command(spectrum, analyte_range, analyte_h, candidate, longest_t1, as_
 @click.option("--formula", "formulas", multiple=True, help="Candidate formula (repeatable), e.g. C10H12O.")
 @click.option("--smiles", "smiles", multiple=True, help="Candidate SMILES, optionally followed by a name (repeatable).")
 @click.option("--candidates", "candidates_file", type=click.Path(exists=True), help="SMILES, MOL, SDF or CSV file of candidates.")
-@click.option("--mz", type=float, multiple=True, help="Observed m/z of the MS feature (repeat with one --ion each).")
+@click.option("--mz", type=Number(1, 100000), multiple=True, help="Observed m/z of the MS feature (repeat with one --ion each).")
 @click.option("--ion", multiple=True, help="Ion species of each --mz, e.g. [M+H]+.")
-@click.option("--ppm", "ppm_tol", type=float, default=DEFAULT_TOLERANCE_PPM, show_default=True, help="Mass tolerance, ppm.")
+@click.option("--ppm", "ppm_tol", type=Number(0, 1000), default=DEFAULT_TOLERANCE_PPM, show_default=True, help="Mass tolerance, ppm.")
 @click.option("--isotopes", help="Observed isotope intensities of the first ion, e.g. 100,11.2,0.9.")
 @click.option("--solvent", help="Override the solvent recorded in the file.")
 @click.option("--json", "as_json", is_flag=True, help="Print JSON.")
@@ -334,6 +438,7 @@ def check_command(spectrum, formulas, smiles, candidates_file, mz, ion, ppm_tol,
 
     if len(mz) != len(ion):
         raise _ParameterError(f"--mz/--ion: give one --ion per --mz ({len(mz)} m/z, {len(ion)} ions)")
+    _output_file("--plot", plot_path)
     ms = None
     if mz:
         iso = None
@@ -373,15 +478,15 @@ def check_command(spectrum, formulas, smiles, candidates_file, mz, ion, ppm_tol,
 @main.command("formulas", context_settings={**CONTEXT, "ignore_unknown_options": True})
 @click.argument("mz", nargs=-1, required=True)
 @click.option("--ion", "ions", multiple=True, help="Ion species of each MZ, in order, e.g. '[M+H]+' (repeatable).")
-@click.option("--ppm", type=float, default=DEFAULT_TOLERANCE_PPM, show_default=True, help="Mass tolerance per ion, ppm (0: use --mda only).")
-@click.option("--mda", type=float, default=None, help="Mass tolerance per ion, mDa (with --ppm the larger applies).")
+@click.option("--ppm", type=Number(0, 1000), default=DEFAULT_TOLERANCE_PPM, show_default=True, help="Mass tolerance per ion, ppm (0: use --mda only).")
+@click.option("--mda", type=Number(0, 10000), default=None, help="Mass tolerance per ion, mDa (with --ppm the larger applies).")
 @click.option("--isotopes", help="Observed intensities of M+0, M+1, ... of the first ion, e.g. '100,16.8,2.3'.")
 @click.option("--elements", help="Element ranges, e.g. 'C0-80 H0-150 N0-10 O0-40 S0-3 Cl0-2' (default CHNOPS).")
 @click.option("--rules", type=click.Choice(["common", "extended", "valence", "none"]), default="common", show_default=True,
               help="Filter preset: golden rules with common or extended ratio ranges, valence rules only, or none.")
 @click.option("--no-prior", is_flag=True, help="Score without the natural-product element prior.")
 @click.option("--h-range", "h_range", help="Protons the 1H spectrum shows, LOW-HIGH (e.g. 17-19): bounds and scores the H count.")
-@click.option("--max", "max_candidates", type=int, default=20, show_default=True, help="Candidates shown at most.")
+@click.option("--max", "max_candidates", type=Number(1, 10000, integer=True), default=20, show_default=True, help="Candidates shown at most.")
 @click.option("--json", "as_json", is_flag=True, help="Print a JSON list of candidates.")
 @user_errors
 def formulas_command(mz, ions, ppm, mda, isotopes, elements, rules, no_prior, h_range, max_candidates, as_json):
@@ -398,9 +503,12 @@ def formulas_command(mz, ions, ppm, mda, isotopes, elements, rules, no_prior, h_
         if text.startswith("--"):
             raise ParameterError(f"unknown option {text}")
         try:
-            values.append(float(text))
+            value = float(text)
         except ValueError:
             raise ParameterError(f"m/z {text!r}: not a number") from None
+        if value != value or value in (float("inf"), float("-inf")):  # the library names the other bounds
+            raise ParameterError(f"m/z {text!r}: not a finite number")
+        values.append(value)
     if not ions:
         raise ParameterError("--ion: give the ion species of each m/z, e.g. --ion '[M+H]+'")
     if len(ions) != len(values):

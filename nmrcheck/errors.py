@@ -48,3 +48,66 @@ class ManifestError(NmrcheckError):
 
 class QuantificationError(NmrcheckError):
     """A reference or analyte signal cannot be used to quantify (missing, overlapped, not positive); names it."""
+
+
+# Plain words for failures nmrcheck did not raise on purpose, by exception type name.
+_KINDS = {
+    "LinAlgError": "a matrix computation did not converge",
+    "ZeroDivisionError": "a division by zero",
+    "FloatingPointError": "a floating-point overflow or invalid value",
+    "OverflowError": "a number too large to handle",
+    "IndexError": "an index out of range",
+    "KeyError": "a missing entry",
+    "ValueError": "an invalid value",
+    "TypeError": "a value of the wrong kind",
+    "AttributeError": "a missing attribute",
+    "RecursionError": "too deep a recursion",
+    "BrokenProcessPool": "a worker process died",
+    "TimeoutError": "a time limit was reached",
+}
+
+_OS_PROBLEMS = {
+    "ENOSPC": "the disk is full",
+    "EDQUOT": "the disk quota is exhausted",
+    "EROFS": "the file system is read-only",
+    "EACCES": "permission denied",
+    "EPERM": "permission denied",
+    "ENOENT": "no such file or directory",
+    "EISDIR": "is a directory",
+    "ENOTDIR": "a part of the path is not a directory",
+    "EMFILE": "too many open files",
+    "EIO": "input/output error (a failing disk or network share?)",
+}
+
+
+def _first_line(text: str) -> str:
+    for line in str(text).splitlines():
+        if line.strip():
+            return " ".join(line.split())
+    return ""
+
+
+def human_message(exc: BaseException) -> str:
+    """One line for people about any exception: the message of nmrcheck's own, plain words for the rest.
+
+    An :class:`NmrcheckError` keeps its message (which names the file, row or field); an
+    ``OSError`` says which file and what went wrong in words ("the disk is full"); a
+    ``MemoryError`` says so; anything else is an ``internal error`` described by what kind of
+    step failed, with its message, never as a raw ``TypeName: ...`` representation.
+    """
+    import errno
+
+    if isinstance(exc, ManifestError):
+        return f"{exc.path}: {len(exc.problems)} problem(s) in the manifest: " + "; ".join(exc.problems)
+    if isinstance(exc, NmrcheckError):
+        return _first_line(str(exc)) or "error"
+    if isinstance(exc, MemoryError):
+        return "not enough memory for this recording or option (out of memory)"
+    if isinstance(exc, OSError):
+        code = errno.errorcode.get(exc.errno or -1, "")
+        problem = _OS_PROBLEMS.get(code) or (exc.strerror or _first_line(str(exc)) or "operating-system error")
+        where = exc.filename if exc.filename is not None else None
+        return f"{where}: {problem}" if where is not None else problem
+    kind = _KINDS.get(type(exc).__name__, "an unexpected failure")
+    detail = _first_line(str(exc))
+    return f"internal error ({kind}){': ' + detail if detail else ''}"

@@ -49,6 +49,8 @@ class Fid:
     """Points of digital-filter delay at the start of ``data`` (0 for analogue or pre-corrected data)."""
     conjugate: bool = False
     """True when the vendor stores the quadrature channel with the opposite sign to nmrcheck's convention."""
+    notes: tuple[str, ...] = ()
+    """What the reader had to decide or ignore (a compound file's block chosen, an implausible field dropped)."""
 
     @property
     def size(self) -> int:
@@ -72,3 +74,5 @@ class SpectrumFile:
     format: str
     processing: dict[str, float] = field(default_factory=dict)
     """What the instrument software recorded of its processing (e.g. ``lb_hz``, ``size``)."""
+    notes: tuple[str, ...] = ()
+    """What the reader had to decide or ignore (a compound file's block chosen, an implausible field dropped)."""

@@ -21,7 +21,7 @@ import numpy as np
 
 from nmrcheck import __version__
 from nmrcheck.chem.candidates import DEFAULT_TOLERANCE_PPM
-from nmrcheck.errors import InputFileError, NmrcheckError, ParameterError
+from nmrcheck.errors import InputFileError, NmrcheckError, ParameterError, human_message
 from nmrcheck.plate.manifest import WellSpec, resolve_spectrum
 from nmrcheck.plate.results import SpectrumTrace, WellResult, options_hash
 from nmrcheck.processing import ProcessingOptions
@@ -387,11 +387,9 @@ def screen_well(spec: WellSpec, directory: str, options: ScreenOptions) -> WellR
 
 
 def _error_result(base: dict[str, Any], path: Path | None, exc: BaseException, clock: _Clock, notes: list[str]) -> WellResult:
-    if isinstance(exc, NmrcheckError):
-        text = f"{type(exc).__name__}: {exc}"
-    else:
-        # An unexpected failure: keep the last frames so the report shows where it happened.
-        tb = traceback.format_exception(type(exc), exc, exc.__traceback__)
-        text = f"{type(exc).__name__}: {exc}\n" + "".join(tb[-3:])
+    text = human_message(exc)
+    if not isinstance(exc, NmrcheckError):
+        # An unexpected failure: the traceback goes to the log (debug level), the well gets words.
+        log.debug("well %s: %s", base["well"], "".join(traceback.format_exception(type(exc), exc, exc.__traceback__)))
     log.warning("well %s: %s", base["well"], str(exc).splitlines()[0] if str(exc) else type(exc).__name__)
     return WellResult(status="error", verdict="error", spectrum_path=str(path) if path else None, error=text, timings=clock.timings, notes=tuple(notes), **base)

@@ -22,7 +22,25 @@ from nmrcheck.processing.spectrum import ProcessingStep, Spectrum
 from nmrcheck.processing.suppression import suppression_zone
 from nmrcheck.processing.transform import fourier_transform, spectrum_from_file
 
-__all__ = ["ProcessingOptions", "process", "snr_of"]
+__all__ = ["ProcessingOptions", "process", "snr_of", "MAX_SIZE"]
+
+
+#: Largest spectrum (points) an option may ask for: 1 M points resolve 0.01 Hz over 20 ppm at 600 MHz.
+MAX_SIZE = 1 << 20
+#: Manual phase bounds, degrees: any zero-order angle is reached within one turn either way; a
+#: first-order correction beyond 100 turns is not a phase error but an uncorrected delay.
+MAX_P0_DEG = 720.0
+MAX_P1_DEG = 36000.0
+#: Largest proton count an anchor may name (a 1000-heavy-atom structure holds at most ~2000 H).
+MAX_ANCHOR_H = 5000
+
+
+def _finite_within(value: Any, lo: float, hi: float) -> bool:
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        return False
+    return bool(np.isfinite(v)) and lo <= v <= hi
 
 
 @dataclass(frozen=True)
@@ -52,10 +70,23 @@ class ProcessingOptions:
     (the zone actually left out is measured on the spectrum)."""
 
     def __post_init__(self) -> None:
-        if self.lb_hz < -5 or self.lb_hz > 50:
-            raise ParameterError(f"lb_hz: {self.lb_hz} Hz is outside -5..50 Hz")
-        if self.size is not None and (self.size < 256 or self.size & (self.size - 1)):
-            raise ParameterError(f"size: {self.size} must be a power of two of at least 256 points")
+        if not _finite_within(self.lb_hz, -5, 50):
+            raise ParameterError(f"lb_hz: {self.lb_hz} Hz is not a number within -5..50 Hz")
+        if self.size is not None and (
+            not isinstance(self.size, (int, np.integer)) or isinstance(self.size, bool)
+            or self.size < 256 or self.size > MAX_SIZE or self.size & (self.size - 1)
+        ):
+            raise ParameterError(f"size: {self.size} must be a power of two from 256 to {MAX_SIZE} points")
+        if self.phase is not None:
+            if len(self.phase) != 2 or not _finite_within(self.phase[0], -MAX_P0_DEG, MAX_P0_DEG) or not _finite_within(self.phase[1], -MAX_P1_DEG, MAX_P1_DEG):
+                raise ParameterError(f"phase: {self.phase} must be two finite angles, p0 within +-{MAX_P0_DEG:g} deg and p1 within +-{MAX_P1_DEG:g} deg")
+        if self.anchor_h is not None and (
+            not isinstance(self.anchor_h, (int, np.integer)) or isinstance(self.anchor_h, bool) or not 1 <= self.anchor_h <= MAX_ANCHOR_H
+        ):
+            raise ParameterError(f"anchor_h: {self.anchor_h} must be a whole number of protons from 1 to {MAX_ANCHOR_H}")
+        for name in ("baseline_smoothness_hz", "threshold_snr", "margin_hz", "min_integral_sigma", "merge_hz", "suppression_halfwidth_ppm"):
+            if not _finite_within(getattr(self, name), -1e6, 1e6):
+                raise ParameterError(f"{name}: {getattr(self, name)} is not a finite number")
         if self.solvent is not None and normalise_solvent(self.solvent) is None:
             raise ParameterError(f"solvent: {self.solvent!r} is not in the solvent table")
         if self.threshold_snr <= 0:
@@ -121,7 +152,8 @@ def process(source: Fid | SpectrumFile | str | os.PathLike, options: ProcessingO
             raise ParameterError(f"unknown processing option(s): {', '.join(sorted(unknown))}")
         opts = replace(opts, **overrides)
     record = read_any(source) if isinstance(source, (str, os.PathLike)) else source
-    warnings: list[str] = []
+    # What the reader decided (a compound file's block, a dropped header field) is said with the result.
+    warnings: list[str] = list(getattr(record, "notes", ()))
     if isinstance(record, Fid):
         spec = fourier_transform(record, lb_hz=opts.lb_hz, size=opts.size)
         already_phased = False

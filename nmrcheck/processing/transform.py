@@ -17,6 +17,8 @@ __all__ = ["fourier_transform", "next_size", "spectrum_from_file", "DEFAULT_MAX_
 
 #: Largest spectrum the default zero-filling makes (points).
 DEFAULT_MAX_SIZE = 65536
+#: Largest transform made at all (points; 64 MiB of complex values), whatever is asked.
+MAX_TRANSFORM_POINTS = 1 << 22
 
 
 def next_size(points: int) -> int:
@@ -53,8 +55,8 @@ def fourier_transform(
         # itself is longer: at 64k points the digital resolution (about 0.1 Hz for a
         # 12 ppm window at 600 MHz) is already far below any line width.
         size = max(next_size(n), min(next_size(2 * n), DEFAULT_MAX_SIZE))
-    if not isinstance(size, (int, np.integer)) or size < 16:
-        raise ParameterError(f"size: must be a whole number of points >= 16, got {size!r}")
+    if not isinstance(size, (int, np.integer)) or size < 16 or size > MAX_TRANSFORM_POINTS:
+        raise ParameterError(f"size: must be a whole number of points from 16 to {MAX_TRANSFORM_POINTS}, got {size!r}")
     if size < n:
         # Truncation keeps the first `size` points, as instrument software does.
         n = size

@@ -87,7 +87,7 @@ def _rewrite(src_text: str, real: np.ndarray, imag: np.ndarray, form: str) -> st
             continue
         k += 1
     text = "\n".join(out) + "\n"
-    text = re.sub(r"##FACTOR=.*", "##FACTOR=    1, 1,        1", text)
+    text = re.sub(r"(##FACTOR=\s*[^,]+),.*", r"\1, 1, 1", text)
     return text
 
 
