@@ -255,6 +255,8 @@ def _bruker_acquisition(
         carrier = o1 / bf1 if o1 is not None else offset_ppm
     elif carrier_ppm is not None:
         carrier = carrier_ppm
+        # The axis is built from the base frequency: place it so that SFO1 sits at the carrier.
+        bf1 = sfo1 / (1.0 + carrier * 1e-6)
     else:
         raise InputFileError(source, "BF1 and O1 missing: the carrier position (and so the ppm axis) is unknown")
     nuc = _text(p.get("NUC1")) or _text(p.get(".OBSERVENUCLEUS"))
@@ -470,7 +472,7 @@ def _jcamp_block(path: Path, want: str | None) -> tuple[Path, JcampBlock, str | 
                 note = f"{path}: compound JCAMP-DX file of {len(data)} data blocks; block {i} ({b.title!r}, {b.data_type}, 1H) read"
                 return path, b, note
     listing = ", ".join(f"{b.data_type or 'untyped'} {_block_nucleus(b)}" for b in data)
-    wanted = {"fid": "a 1H FID", "spectrum": "a 1H spectrum"}.get(want or "", "a 1H FID or spectrum")
+    wanted = {"fid": "1H FID", "spectrum": "1H spectrum"}.get(want or "", "1H FID or spectrum")
     raise InputFileError(path, f"compound JCAMP-DX file holds no {wanted} (blocks: {listing})")
 
 

@@ -11,13 +11,14 @@ import csv
 import io
 import logging
 import os
+import re
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 from nmrcheck.errors import InputFileError
 
-__all__ = ["StructureEntry", "read_structures", "mol_from_smiles", "STRUCTURE_FORMATS"]
+__all__ = ["StructureEntry", "read_structures", "mol_from_smiles", "smiles_size_problem", "STRUCTURE_FORMATS", "MAX_HEAVY_ATOMS"]
 
 log = logging.getLogger("nmrcheck")
 
@@ -31,6 +32,34 @@ STRUCTURE_FORMATS = {
     ".sd": "sdf",
     ".csv": "csv",
 }
+
+#: Largest candidate structure checked, heavy (non-hydrogen) atoms. Natural products run to a few
+#: hundred (vancomycin 101, maitotoxin about 490); beyond 1000 the shift prediction and ring
+#: perception would run for minutes on a structure no micro-fraction holds.
+MAX_HEAVY_ATOMS = 1000
+#: Longest SMILES text looked at (a 1000-atom SMILES with brackets, ring closures and stereo marks
+#: stays well under this).
+MAX_SMILES_CHARS = 20000
+
+_SMILES_ATOM = re.compile(r"\[[^\]]*\]|Cl|Br|[BCNOPSFI]|[bcnops]")
+
+
+def smiles_size_problem(text: str) -> str | None:
+    """Why a SMILES is too large to check (a cheap count before RDKit parses it), or None."""
+    if len(text) > MAX_SMILES_CHARS:
+        return f"SMILES of {len(text)} characters is longer than the {MAX_SMILES_CHARS} accepted (at most {MAX_HEAVY_ATOMS} heavy atoms)"
+    atoms = sum(1 for m in _SMILES_ATOM.finditer(text) if not re.fullmatch(r"\[\d*H[^a-z]*\]", m.group(0)))
+    if atoms > MAX_HEAVY_ATOMS:
+        return f"SMILES holds about {atoms} heavy atoms; at most {MAX_HEAVY_ATOMS} are checked"
+    return None
+
+
+def _too_large(mol) -> str | None:
+    heavy = mol.GetNumHeavyAtoms()
+    if heavy > MAX_HEAVY_ATOMS:
+        return f"structure holds {heavy} heavy atoms; at most {MAX_HEAVY_ATOMS} are checked"
+    return None
+
 
 #: SD-file properties tried, in order, for a record's name when its title line is empty.
 _NAME_PROPERTIES = ("name", "Name", "NAME", "title", "ID", "id", "label", "compound")
@@ -79,9 +108,15 @@ def mol_from_smiles(smiles: str) -> tuple[Any, str | None]:
     text = (smiles or "").strip()
     if not text:
         return None, "empty SMILES"
+    too_large = smiles_size_problem(text)
+    if too_large:
+        return None, too_large
     mol = Chem.MolFromSmiles(text, sanitize=False)
     if mol is None:
         return None, f"SMILES {text!r} cannot be parsed"
+    too_large = _too_large(mol)
+    if too_large:
+        return None, too_large
     try:
         Chem.SanitizeMol(mol)
     except Exception as exc:  # RDKit raises several sanitisation exception types
@@ -106,6 +141,9 @@ def _sanitised(mol, origin: str) -> tuple[Any, str | None]:
     Chem = _rdkit()
     if mol is None:
         return None, "record cannot be parsed as a molfile"
+    too_large = _too_large(mol)
+    if too_large:
+        return None, too_large
     try:
         Chem.SanitizeMol(mol)
     except Exception as exc:

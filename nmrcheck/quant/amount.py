@@ -502,6 +502,11 @@ def _candidate_mass(formula_or_mw) -> tuple[float, int | None, str]:
         from rdkit import Chem, RDLogger
 
         RDLogger.DisableLog("rdApp.*")
+        from nmrcheck.io.structures import smiles_size_problem
+
+        too_large = smiles_size_problem(text)
+        if too_large:
+            raise ParameterError(f"candidate: {too_large}")
         mol = Chem.MolFromSmiles(text)
         if mol is None:
             raise ParameterError(f"candidate: {text!r} is neither a molecular formula nor a SMILES RDKit can read")

@@ -1,0 +1,202 @@
+"""Fuzz at the command line: bad options and bad files give one line and a non-zero exit, never a traceback or a hang.
+
+Options are tried in-process (click's test runner); the cases whose failure mode was a hang
+or a runaway allocation run as real subprocesses under a time limit and an address-space
+limit, so a regression fails instead of stalling the suite or the machine.
+"""
+
+from __future__ import annotations
+
+import errno
+import os
+import resource
+import subprocess
+import sys
+
+import pytest
+from click.testing import CliRunner
+from fuzz_catalogue import set_param, write_synthetic_bruker
+
+from nmrcheck.cli import main
+
+
+@pytest.fixture(scope="module")
+def experiment(tmp_path_factory):
+    return write_synthetic_bruker(tmp_path_factory.mktemp("cli-fuzz") / "exp" / "1")
+
+
+def _one_line_error(result, status=2):
+    assert result.exit_code == status, result.output
+    assert result.exception is None or isinstance(result.exception, SystemExit), repr(result.exception)
+    message = result.output.strip()
+    assert "Traceback" not in message
+    assert len(message.splitlines()) == 1, message
+    return message
+
+
+# (arguments after "process EXP", text the message must hold). Click's usage errors print a
+# usage line too; they are checked for status 2 and no traceback, and name the option.
+BAD_PROCESS_OPTIONS = [
+    (["--lb", "nan"], "--lb"),
+    (["--lb", "inf"], "--lb"),
+    (["--lb", "-inf"], "--lb"),
+    (["--lb", "1e9"], "--lb"),
+    (["--phase", "nan,nan"], "--phase"),
+    (["--phase", "inf,0"], "--phase"),
+    (["--phase", "0,-inf"], "--phase"),
+    (["--phase", "1e9,0"], "phase"),
+    (["--phase", "a,b"], "--phase"),
+    (["--phase", "1,2,3"], "--phase"),
+    (["--anchor-h", "1000000000"], "--anchor-h"),
+    (["--anchor-h", "0"], "--anchor-h"),
+    (["--anchor-h", "nan"], "--anchor-h"),
+    (["--size", str(2**31)], "--size"),
+    (["--size", str(2**26)], "--size"),
+    (["--size", "1000"], "size"),
+    (["--size", "-4096"], "--size"),
+    (["--solvent", "unobtainium"], "solvent"),
+    (["--standard", "DSS", "--standard-nmol", "nan"], "--standard-nmol"),
+    (["--standard", "DSS", "--volume-ul", "inf"], "--volume-ul"),
+    (["--solvent-reference", "--deuteration-pct", "150", "--volume-ul", "35"], "--deuteration-pct"),
+]
+
+
+@pytest.mark.parametrize("args, fragment", BAD_PROCESS_OPTIONS, ids=[" ".join(a) for a, _ in BAD_PROCESS_OPTIONS])
+def test_bad_process_options(experiment, args, fragment):
+    result = CliRunner().invoke(main, ["process", str(experiment), *args])
+    assert result.exit_code == 2, result.output
+    assert result.exception is None or isinstance(result.exception, SystemExit), repr(result.exception)
+    assert "Traceback" not in result.output
+    assert fragment in result.output
+
+
+@pytest.mark.parametrize("option", ["--plot", "--save-spectrum"])
+def test_output_into_a_missing_folder(experiment, tmp_path, option):
+    message = _one_line_error(CliRunner().invoke(main, ["process", str(experiment), option, str(tmp_path / "no" / "such" / "x.png")]))
+    assert option in message and "does not exist" in message
+
+
+def test_check_plot_into_a_missing_folder(experiment, tmp_path):
+    message = _one_line_error(CliRunner().invoke(main, ["check", str(experiment), "--formula", "C10H12O", "--plot", str(tmp_path / "none" / "x.png")]))
+    assert "--plot" in message
+
+
+@pytest.mark.parametrize("args", [["--mz", "nan", "--ion", "[M+H]+"], ["--ppm", "nan", "--formula", "C10H12O"], ["--ppm", "inf", "--formula", "C10H12O"]])
+def test_check_numbers_must_be_finite(experiment, args):
+    result = CliRunner().invoke(main, ["check", str(experiment), *args])
+    assert result.exit_code == 2 and "Traceback" not in result.output
+    assert "finite" in result.output
+
+
+@pytest.mark.parametrize("args", [["nan", "--ion", "[M+H]+"], ["inf", "--ion", "[M+H]+"], ["179.07", "--ion", "[M+H]+", "--ppm", "nan"], ["179.07", "--ion", "[M+H]+", "--max", "1e9"]])
+def test_formulas_numbers_must_be_finite(args):
+    result = CliRunner().invoke(main, ["formulas", *args])
+    assert result.exit_code == 2 and "Traceback" not in result.output
+
+
+def test_huge_smiles_is_refused_by_size(experiment):
+    """A 100,000-atom SMILES: refused by the documented 1000-heavy-atom limit, named in the message."""
+    result = CliRunner().invoke(main, ["check", str(experiment), "--smiles", "C" * 100_000])
+    assert result.exit_code == 2 and "Traceback" not in result.output
+    assert "1000" in result.output
+
+
+def test_workers_are_bounded(tmp_path):
+    result = CliRunner().invoke(main, ["demo", "--out", str(tmp_path / "d"), "--workers", "1000000000"])
+    assert result.exit_code == 2 and "--workers" in result.output
+
+
+# --- the top-level guard --------------------------------------------------------------------
+
+
+def _raise_in_process(monkeypatch, exc):
+    import nmrcheck.processing as processing
+
+    def boom(*args, **kwargs):
+        raise exc
+
+    monkeypatch.setattr(processing, "process", boom)
+
+
+def test_unexpected_failure_is_one_line_with_status_3(experiment, monkeypatch):
+    import numpy as np
+
+    _raise_in_process(monkeypatch, np.linalg.LinAlgError("Singular matrix"))
+    message = _one_line_error(CliRunner().invoke(main, ["process", str(experiment)]), status=3)
+    assert message.startswith("nmrcheck: internal error") and "--debug" in message
+    assert "LinAlgError" not in message
+
+
+def test_debug_flag_shows_the_traceback(experiment, monkeypatch):
+    _raise_in_process(monkeypatch, KeyError("SFO1"))
+    result = CliRunner().invoke(main, ["--debug", "process", str(experiment)])
+    assert isinstance(result.exception, KeyError)
+
+
+@pytest.mark.parametrize("code, words", [(errno.ENOSPC, "the disk is full"), (errno.EROFS, "read-only"), (errno.EACCES, "permission denied")])
+def test_disk_errors_are_one_line(experiment, tmp_path, monkeypatch, code, words):
+    import nmrcheck.io.arrays as arrays
+
+    target = tmp_path / "s.npz"
+
+    def full(path, **kwargs):
+        raise OSError(code, os.strerror(code), str(path))
+
+    monkeypatch.setattr(arrays, "save_spectrum_npz", full)
+    message = _one_line_error(CliRunner().invoke(main, ["process", str(experiment), "--save-spectrum", str(target)]))
+    assert str(target) in message and words in message
+
+
+# --- hangs and runaway memory: real subprocesses under limits --------------------------------
+
+_LIMIT_BYTES = 3 * 1024**3
+
+
+def _limited():
+    resource.setrlimit(resource.RLIMIT_AS, (_LIMIT_BYTES, _LIMIT_BYTES))
+
+
+def _run(*args, timeout=60):
+    env = {**os.environ, "PYTHONWARNINGS": "ignore"}
+    env.pop("NMRCHECK_DEBUG", None)
+    try:
+        proc = subprocess.run([sys.executable, "-m", "nmrcheck", *args], capture_output=True, text=True, timeout=timeout, preexec_fn=_limited, env=env)
+    except subprocess.TimeoutExpired:
+        pytest.fail(f"nmrcheck {' '.join(args)[:80]}: no answer within {timeout} s (hang)")
+    assert "Traceback" not in proc.stderr, proc.stderr[-2000:]
+    return proc
+
+
+def test_subprocess_truncated_acqus_string(experiment, tmp_path):
+    import shutil
+
+    d = tmp_path / "cut"
+    shutil.copytree(experiment, d)
+    raw = (d / "acqus").read_bytes()
+    (d / "acqus").write_bytes(raw[: raw.index(b"##$PULPROG= <") + 14])
+    proc = _run("process", str(d))
+    assert proc.returncode == 2 and "PULPROG" in proc.stderr and len(proc.stderr.strip().splitlines()) == 1
+
+
+def test_subprocess_fifo_named_like_a_data_file(tmp_path):
+    fifo = tmp_path / "x.dx"
+    os.mkfifo(fifo)
+    proc = _run("process", str(fifo))
+    assert proc.returncode == 2 and "FIFO" in proc.stderr
+
+
+def test_subprocess_absurd_base_frequency_and_size(experiment, tmp_path):
+    import shutil
+
+    d = tmp_path / "bf1"
+    shutil.copytree(experiment, d)
+    set_param(d, "BF1", "99999999999")
+    proc = _run("process", str(d))
+    assert proc.returncode == 2 and "BF1" in proc.stderr
+    proc = _run("process", str(experiment), "--size", str(2**31))
+    assert proc.returncode == 2 and "--size" in proc.stderr
+
+
+def test_subprocess_huge_smiles(experiment):
+    proc = _run("check", str(experiment), "--smiles", "C" * 100_000, timeout=60)
+    assert proc.returncode == 2 and "1000" in proc.stderr
