@@ -499,17 +499,18 @@ def _search(parsed, ppm, mda, isotopes, elements, rules, max_candidates, prior, 
     ranges = _search_ranges(elements, (low, high), rules, [s for _, s in parsed])
     # The window is the intersection over the ions, and losses have set minimum counts, so
     # every composition found forms every ion within tolerance.
-    table = enumerate_formulas(low, high, ranges, pruning=pruning_for(rules))
+    pruning = pruning_for(rules)
+    if h_bounds is not None:
+        pruning = replace(pruning, visible_h=(h_bounds[0], h_bounds[1], h_offset))
+    table = enumerate_formulas(low, high, ranges, pruning=pruning)
     n_in_window = len(table)
 
     proton_part = None
     if h_bounds is not None:
         proton_part = _proton_part(table, h_bounds, h_offset)
-        keep = np.isfinite(proton_part)
-        table, proton_part = table.take(keep), proton_part[keep]
+        shown = f"{h_bounds[0]}-{h_bounds[1]}" if h_bounds[1] < MAX_COUNT else f"at least {h_bounds[0]}"
         notes.append(
-            f"proton bound: {h_bounds[0]}-{h_bounds[1]} H seen in the 1H spectrum, plus up to one exchangeable H per O "
-            f"and S and two per N, removed {int(np.count_nonzero(~keep))} of {n_in_window} formulas"
+            f"proton bound: {shown} H seen in the 1H spectrum, plus up to one exchangeable H per O and S and two per N"
         )
     passing = rule_mask(table, rules_of_preset(rules), ratio_range=ratio_range_of(rules))
     table = table.take(passing)
@@ -629,32 +630,33 @@ def _isotope_parts(table, species, observed, base, max_candidates, relative_erro
     """Isotope score, chi2 and scaled predictions, computed only where they can matter.
 
     The isotope part is never positive, so a candidate whose other parts (``base``) already
-    fall below the ``max_candidates``-th best full score cannot be shown; its pattern is
-    not computed (its chi2 stays infinite). Best ``base`` first, in growing batches, until
-    no remaining candidate can enter.
+    fall below the ``max_candidates``-th best full score cannot be shown: its pattern is
+    not computed (its chi2 stays infinite). The patterns of the best ``base`` values are
+    computed first; they set that score, and the rest is computed only where ``base``
+    reaches it.
     """
     n = len(table)
     k = len(observed)
     iso = np.full(n, -np.inf)
     chi2 = np.full(n, np.inf)
     scaled = np.zeros((n, k))
-    order = np.argsort(-base, kind="stable")
-    done = 0
-    batch = max(256, 8 * max_candidates)
-    dof = k - 1
-    while done < n:
-        take = order[done : done + batch]
-        ion_counts, ion_elements = _ion_counts(table.take(take), species)
+
+    def compute(rows):
+        ion_counts, ion_elements = _ion_counts(table.take(rows), species)
         predicted = pattern_matrix(ion_counts, ion_elements, k)
         c2, sc, dof = fit_isotopes(observed, predicted, relative_error=relative_error, absolute_error=absolute_error)
-        chi2[take], scaled[take], iso[take] = c2, sc, -0.5 * c2
-        done += take.size
-        batch *= 4
-        if done >= max_candidates and done < n:
-            kth = np.partition(-(base + iso), max_candidates - 1)[max_candidates - 1]
-            # Strictly below: equal scores are ordered by mass error and must still be computed.
-            if base[order[done]] < -kth:
-                break
+        chi2[rows], scaled[rows], iso[rows] = c2, sc, -0.5 * c2
+        return dof
+
+    first = max(256, 8 * max_candidates)
+    if n <= 2 * first:
+        return iso, chi2, scaled, compute(np.arange(n))
+    head = np.argpartition(-base, first)[:first]
+    dof = compute(head)
+    kth = -np.partition(-(base[head] + iso[head]), max_candidates - 1)[max_candidates - 1]
+    rest = np.flatnonzero((base >= kth) & np.isinf(chi2))
+    if rest.size:
+        compute(rest)
     return iso, chi2, scaled, dof
 
 

@@ -15,7 +15,7 @@ from __future__ import annotations
 import math
 import re
 from collections.abc import Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from functools import lru_cache
 
 import numpy as np
@@ -180,6 +180,8 @@ class Pruning:
     probability_groups : tuple of (int, tuple of (str, int))
         Element-probability groups: when every element of a group occurs more than the
         given number of times, each must stay below its limit.
+    visible_h : (int, int, int) or None
+        Proton-count bound (see the attribute).
     """
 
     rdbe_nonnegative: bool = False
@@ -187,6 +189,10 @@ class Pruning:
     hydrogen_carbon_min: float | None = None
     even_valence: bool = False
     probability_groups: tuple[tuple[int, tuple[tuple[str, int], ...]], ...] = ()
+    visible_h: tuple[int, int, int] | None = None
+    """(low, high, offset): skip compositions whose H + offset hydrogens cannot show between
+    low and high protons when any of their exchangeable H (one per O and S, two per N) may
+    be hidden."""
 
     @property
     def needs_carbon(self) -> bool:
@@ -233,6 +239,11 @@ def enumerate_formulas(
             return _empty(tuple(sorted(ranges, key=hill_sort_key)))
         bounds.append((symbol, lo, hi))
     return _search(float(low_mass), float(high_mass), tuple(bounds), pruning or Pruning(), cap)
+
+
+def _table_pruning(pruning: Pruning) -> Pruning:
+    """The part of ``pruning`` the cached group tables depend on (the proton bound changes per query)."""
+    return replace(pruning, visible_h=None) if pruning.visible_h is not None else pruning
 
 
 def _mass_cap(high_mass: float) -> float:
@@ -301,6 +312,7 @@ class _Group:
     counts: np.ndarray
     masses: np.ndarray
     parity_start: tuple[int, int, int]  # rows [start[p], start[p+1]) have parity p
+    weights: np.ndarray  # sum of (valence - 2) * count per row: 2 RDBE - 2 of the part
 
 
 def _sorted_group(columns, counts, bounds) -> _Group:
@@ -312,10 +324,12 @@ def _sorted_group(columns, counts, bounds) -> _Group:
     counts = np.ascontiguousarray(counts[order])
     masses = np.ascontiguousarray(masses[order])
     n_even = int(np.count_nonzero(parity == 0))
+    valence = np.array([element(s).valence - 2 for s in symbols], dtype=np.int32)
+    weights = counts.astype(np.int32) @ valence if columns else np.zeros(counts.shape[0], dtype=np.int32)
     # Cached and shared between queries: nobody may write into them.
-    counts.setflags(write=False)
-    masses.setflags(write=False)
-    return _Group(tuple(columns), counts, masses, (0, n_even, counts.shape[0]))
+    for array in (counts, masses, weights):
+        array.setflags(write=False)
+    return _Group(tuple(columns), counts, masses, (0, n_even, counts.shape[0]), weights)
 
 
 # A few tens of MB each: enough entries for the mass ranges of a plate, not more.
@@ -370,7 +384,7 @@ def _groups(bounds, pruning: Pruning, cap: float) -> tuple[_Group, _Group]:
 
 def _search(low, high, bounds, pruning: Pruning, cap: float) -> FormulaTable:
     symbols = tuple(s for s, _, _ in bounds)
-    a, b = _groups(bounds, pruning, cap)
+    a, b = _groups(bounds, _table_pruning(pruning), cap)
     if a.masses.size == 0 or b.masses.size == 0:
         return _empty(symbols)
     a_symbols = [symbols[i] for i in a.columns]
@@ -418,6 +432,10 @@ def _search(low, high, bounds, pruning: Pruning, cap: float) -> FormulaTable:
         return _empty(symbols)
     ia = np.concatenate(pieces_a)
     ib = np.concatenate(pieces_b)
+    # Filters that need the whole composition, on the index pairs before the rows are built.
+    keep = _pair_filter(ia, ib, a, b, symbols, pruning)
+    if keep is not None:
+        ia, ib = ia[keep], ib[keep]
     counts = np.zeros((ia.size, len(symbols)), dtype=np.int32)
     counts[:, list(a.columns)] = a.counts[ia]
     if b.columns:
@@ -425,3 +443,49 @@ def _search(low, high, bounds, pruning: Pruning, cap: float) -> FormulaTable:
     masses = counts @ np.array([element(s).monoisotopic_mass for s in symbols])
     inside = (masses >= low) & (masses <= high)
     return FormulaTable(symbols, counts[inside], masses[inside])
+
+
+def _pair_filter(ia, ib, a: _Group, b: _Group, symbols, pruning: Pruning) -> np.ndarray | None:
+    """Mask of the (first-group row, second-group row) pairs that pass the whole-composition
+    constraints of ``pruning`` (RDBE >= 0, element-probability groups, proton bound); None: all."""
+
+    gathered: dict[str, np.ndarray | None] = {}
+
+    def column(symbol):
+        if symbol not in gathered:
+            if symbol not in symbols:
+                gathered[symbol] = None
+            else:
+                j = symbols.index(symbol)
+                if j in a.columns:
+                    gathered[symbol] = a.counts[:, a.columns.index(j)][ia].astype(np.int32)
+                else:
+                    gathered[symbol] = b.counts[:, b.columns.index(j)][ib].astype(np.int32)
+        return gathered[symbol]
+
+    keep = None
+    if pruning.rdbe_nonnegative:
+        keep = a.weights[ia] + b.weights[ib] >= -2
+    for group_more_than, group_limits in pruning.probability_groups:
+        cols = [column(s) for s, _ in group_limits]
+        if any(c is None for c in cols):
+            continue
+        applies = np.ones(ia.size, dtype=bool)
+        within = np.ones(ia.size, dtype=bool)
+        for x, (_, below) in zip(cols, group_limits):
+            applies &= x > group_more_than
+            within &= x < below
+        ok = ~applies | within
+        keep = ok if keep is None else keep & ok
+    if pruning.visible_h is not None:
+        low, high, offset = pruning.visible_h
+        h = column("H")
+        h = np.full(ia.size, offset, dtype=np.int32) if h is None else h + offset
+        exchangeable = np.zeros(ia.size, dtype=np.int32)
+        for symbol, per_atom in (("O", 1), ("N", 2), ("S", 1)):
+            x = column(symbol)
+            if x is not None:
+                exchangeable += per_atom * x
+        ok = (h >= low) & (h - exchangeable <= high)
+        keep = ok if keep is None else keep & ok
+    return keep

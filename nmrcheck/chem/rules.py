@@ -277,14 +277,9 @@ def evaluate_rules(
 
 def rule_mask(table: FormulaTable, rules: tuple[str, ...], *, ratio_range: str = "common") -> np.ndarray:
     """Boolean mask of the rows of ``table`` passing every rule of ``rules`` (see :func:`filter_rules`)."""
-    index = np.arange(len(table))
+    mask = np.ones(len(table), dtype=bool)
     for rule in rules:
-        if not index.size:
-            break
-        sub = table.take(index)
-        index = index[_RULES[rule](sub, ratio_range)]
-    mask = np.zeros(len(table), dtype=bool)
-    mask[index] = True
+        mask &= _RULES[rule](table, ratio_range)
     return mask
 
 
