@@ -275,11 +275,14 @@ def plate_group() -> None:
 @click.option("--layout", type=click.Choice(["96", "384"]), default=None, help="Plate format [default: from the well names].")
 @click.option("--lb", "lb_hz", type=Number(-5, 50), default=None, help="Line broadening, Hz.")
 @click.option("--mass-tolerance", "mass_tolerance_ppm", type=Number(0, 1000), default=None, help=f"HRMS tolerance, ppm [default: {DEFAULT_TOLERANCE_PPM:g}].")
+@click.option("--library", "library", type=click.Path(exists=True, dir_okay=False), default=None, help="Known compounds (CSV/SMILES/SD file, or an index made from one): matches become candidates.")
+@click.option("--genus", default=None, help="Genus of the extract's organism (ranks known compounds).")
+@click.option("--family", default=None, help="Family of the extract's organism (ranks known compounds).")
 @click.option("--scheduler", default=None, help="Dask distributed scheduler address (needs the 'dask' extra) instead of local processes.")
 @click.option("--no-report", is_flag=True, help="Do not write the HTML report and exports at the end.")
 @click.option("--assay", "assay_path", type=click.Path(dir_okay=False), default=None, help="Bioassay readouts per well (CSV: well,value[,unit,threshold,hit_when,assay]) to join in the report.")
 @user_errors
-def plate_run(manifest, out_dir, workers, watch, time_limit_h, poll_s, redo, layout, lb_hz, mass_tolerance_ppm, scheduler, no_report, assay_path) -> None:
+def plate_run(manifest, out_dir, workers, watch, time_limit_h, poll_s, redo, layout, lb_hz, mass_tolerance_ppm, library, genus, family, scheduler, no_report, assay_path) -> None:
     """Screen every well of MANIFEST into --out; rerunning resumes. Exit 0 when the run completed."""
     from dataclasses import replace
 
@@ -295,6 +298,14 @@ def plate_run(manifest, out_dir, workers, watch, time_limit_h, poll_s, redo, lay
     options = ScreenOptions(processing=processing)
     if mass_tolerance_ppm is not None:
         options = replace(options, mass_tolerance_ppm=mass_tolerance_ppm)
+    if library:
+        from pathlib import Path
+
+        from nmrcheck.ms.library import open_library
+
+        index = open_library(library, cache_dir=Path(out_dir) / "library")
+        click.echo(f"known compounds: {index.entries} in {index.database}" + (f" ({index.skipped} rows left out)" if index.skipped else ""), err=True)
+        options = replace(options, library=index.database, genus=genus, family=family)
     executor = client = None
     if scheduler:
         try:
@@ -422,9 +433,12 @@ def quant_command(spectrum, analyte_range, analyte_h, candidate, longest_t1, as_
 @click.option("--solvent", help="Override the solvent recorded in the file.")
 @click.option("--json", "as_json", is_flag=True, help="Print JSON.")
 @click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="Save an overlay of predicted shifts (PNG).")
+@click.option("--library", "library", type=click.Path(exists=True, dir_okay=False), default=None, help="Known compounds (CSV/SMILES/SD file or index): those at the feature's mass become candidates.")
+@click.option("--genus", default=None, help="Genus of the organism (ranks known compounds).")
+@click.option("--family", default=None, help="Family of the organism (ranks known compounds).")
 @user_errors
 @quant_options
-def check_command(spectrum, formulas, smiles, candidates_file, mz, ion, ppm_tol, isotopes, solvent, as_json, plot_path, quant):
+def check_command(spectrum, formulas, smiles, candidates_file, mz, ion, ppm_tol, isotopes, solvent, as_json, plot_path, library, genus, family, quant):
     """Check candidate formulas and structures against SPECTRUM and an MS feature.
 
     With an MS feature and no candidates, the formula engine proposes them. With an amount
@@ -451,6 +465,14 @@ def check_command(spectrum, formulas, smiles, candidates_file, mz, ion, ppm_tol,
     cands, problems = candidates_from_strings(formulas, smiles)
     if candidates_file:
         more, bad = candidates_from_file(candidates_file)
+        cands, problems = cands + more, problems + bad
+    if library and ms is not None:
+        from nmrcheck.ms.library import KnownCompoundLibrary, library_structures, open_library
+
+        with KnownCompoundLibrary(open_library(library).database) as known:
+            lookup = known.lookup(list(ms.ions), ppm=ppm_tol, genus=genus, family=family)
+        click.echo(f"known compounds: {lookup.summary}", err=True)
+        more, bad = candidates_from_strings((), [f"{s} {label}" for label, s in library_structures(lookup)])
         cands, problems = cands + more, problems + bad
     if not cands and not problems and ms is not None:
         cands = candidates_from_ms(ms)

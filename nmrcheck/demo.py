@@ -276,7 +276,18 @@ def run_demo(out_dir: str | os.PathLike, *, workers: int | None = None, points: 
     out = Path(out_dir)
     manifest_path = build_demo_plate(out, points=points)
     manifest = read_manifest(manifest_path)
-    summary = run_plate(manifest, out / "results", workers=workers, progress=progress, redo=True)
+    options = _demo_options(out)
+    summary = run_plate(manifest, out / "results", options=options, workers=workers, progress=progress, redo=True)
     report = write_plate_report(out / "results", title="Demo plate - Calyxia nocturna (fictional) extract, fractions 1-36", subtitle=SCENARIO,
                                 assay=manifest_path.parent / "assay.csv")
     return summary, report, time.perf_counter() - t0
+
+
+def _demo_options(out: Path):
+    """Screen options of the demo: its invented known-compound library and organism."""
+    from nmrcheck.ms._library_demo import DEMO_FAMILY, DEMO_GENUS, write_demo_library
+    from nmrcheck.ms.library import open_library
+    from nmrcheck.plate import ScreenOptions
+
+    library = open_library(write_demo_library(out / "plate" / "known_compounds.csv"), cache_dir=out / "results" / "library")
+    return ScreenOptions(library=library.database, genus=DEMO_GENUS, family=DEMO_FAMILY)

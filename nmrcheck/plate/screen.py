@@ -52,6 +52,11 @@ class ScreenOptions:
     """Atom % D of the solvent lot."""
     next_experiment: str = "1H-13C HSQC"
     """Experiment the go/no-go recommendation is for (a name in the quantification thresholds)."""
+    library: str | None = None
+    """Indexed known-compound library (:func:`nmrcheck.ms.library.open_library`); its matches join the candidates."""
+    genus: str | None = None
+    """The extract's organism: genus and family, for ranking known compounds."""
+    family: str | None = None
 
     def __post_init__(self) -> None:
         if not 0 < self.mass_tolerance_ppm <= 100:
@@ -169,6 +174,8 @@ def _candidate_list(spec: WellSpec, options: ScreenOptions, notes: list[str], *,
             records[-1]["neutral_mass"] = objects[-1].formula.monoisotopic_mass
     if not spec.ms_features:
         return objects, records
+    if options.library:
+        _known_compounds(spec, options, notes, add, records, objects, candidates_from_strings)
     try:
         search = formula_search(
             list(spec.ms_features),
@@ -198,6 +205,27 @@ def _candidate_list(spec: WellSpec, options: ScreenOptions, notes: list[str], *,
     if not search.candidates:
         notes.append(f"formula search: no formula within {options.mass_tolerance_ppm:g} ppm passes the {options.rules} rules")
     return objects, records
+
+
+def _known_compounds(spec: WellSpec, options: ScreenOptions, notes: list[str], add, records, objects, candidates_from_strings) -> None:
+    """Known compounds of the library at the well's mass become structure candidates; the well's note says how many."""
+    from nmrcheck.ms.library import library_at, library_structures
+
+    try:
+        lookup = library_at(options.library).lookup(
+            list(spec.ms_features), ppm=options.mass_tolerance_ppm, genus=options.genus, family=options.family
+        )
+    except NmrcheckError as exc:
+        notes.append(f"known compounds: {exc}")
+        return
+    notes.append(f"known compounds: {lookup.summary}")
+    named = {r.get("smiles") for r in records if r["kind"] == "structure"}
+    for (label, smiles), match in zip(library_structures(lookup), lookup.matches):
+        if smiles in named:
+            continue
+        add({"kind": "structure", "source": "library", "name": label, "smiles": smiles, "formula": match.formula,
+             "neutral_mass": match.monoisotopic_mass, "known": match.as_dict()},
+            lambda s=smiles, n=label: candidates_from_strings(smiles=[f"{s} {n}"]) if candidates_from_strings else ((), ()))
 
 
 def _check_record(key: str, verdict, evidence) -> dict[str, Any]:
