@@ -561,3 +561,23 @@ def _h_range(text: str | None) -> tuple[float, float] | None:
     except ValueError:
         raise ParameterError(f"--h-range {text!r}: give LOW-HIGH proton counts, e.g. 17-19") from None
     return values
+
+
+# --- tables: the reference tables a user can name -------------------------------------------------
+
+
+@main.command("tables", context_settings=CONTEXT)
+@click.argument("names", nargs=-1, type=click.Choice(["standards", "solvents", "ions", "experiments"]))
+@click.option("--json", "as_json", is_flag=True, help="Print the tables as JSON.")
+@user_errors
+def tables_command(names, as_json) -> None:
+    """List the reference tables: internal standards, solvents, ion species, next experiments (all when none is named)."""
+    from nmrcheck.report.reference_tables import reference_tables, tables_text
+
+    tables = reference_tables(names)
+    if as_json:
+        import json
+
+        click.echo(json.dumps(tables, indent=1, ensure_ascii=False))
+    else:
+        click.echo(tables_text(tables), nl=False)

@@ -33,6 +33,10 @@ def test_demo_runs_end_to_end(tmp_path):
     assert summary.verdicts.get("empty") == 1 and summary.verdicts.get("unreadable") == 1
     assert summary.verdicts.get("inconsistent", 0) >= 2
     assert report.is_file() and (report.parent / "results.csv").is_file()
+    # The invented assay readouts (nmrcheck.demo.demo_assay) are joined: thymol, eugenol and umbelliferone wells hit.
+    assert (report.parent / "assay.csv").is_file()
+    html = report.read_text(encoding="utf-8")
+    assert "active (" in html and 'class="active"' in html
 
 
 def test_cli_plate_run_and_report(tmp_path):

@@ -60,6 +60,7 @@ ol.triage li > *{overflow:hidden;text-overflow:ellipsis}
 ol.triage li:hover{background:var(--panel)}
 ol.triage .why{white-space:nowrap}
 .concern{font-size:.78em;font-weight:600;text-transform:uppercase;letter-spacing:.02em;color:var(--warn)}
+ol.ready .concern{color:var(--ok)}
 .act{color:#b8391c;font-weight:700}
 .badge{display:inline-block;border-radius:.7em;padding:0 .45em;font-size:.82em;font-weight:600;border:1px solid #1a1a1a;white-space:nowrap}
 table{border-collapse:collapse;font-size:.9em;width:100%}
@@ -249,7 +250,7 @@ def _activity_cell(line: WellLine) -> str:
     return f'<span{cls} title="{escape(tip)}">{escape(text)}</span>'
 
 
-def _triage_list(lines: list[WellLine], *, empty: str, purity: bool) -> str:
+def _triage_list(lines: list[WellLine], *, empty: str, purity: bool, kind: str) -> str:
     if not lines:
         return f'<p class="muted">{escape(empty)}</p>'
     items = []
@@ -264,7 +265,7 @@ def _triage_list(lines: list[WellLine], *, empty: str, purity: bool) -> str:
             + f'<span class="num">{_tip(ln.amount or "–", ln.amount_detail)}</span>'
             f'<span class="why"><span class="concern">{escape(what)}</span> {act} {_tip(ln.reason, ln.reason)}</span></li>'
         )
-    return f'<ol class="triage{"" if purity else " nopurity"}">' + "".join(items) + "</ol>"
+    return f'<ol class="triage {kind}{"" if purity else " nopurity"}">' + "".join(items) + "</ol>"
 
 
 _TABLE_HEAD = (
@@ -416,7 +417,7 @@ def _well_section(result: WellResult, line: WellLine, index: int, history_len: i
     if spec.get("notes"):
         pairs.append(("Notes", escape(str(spec["notes"]))))
     if line.count:
-        pairs.append(("Protons", escape(f"{line.count}: {line.count_detail}")))
+        pairs.append(("Protons", escape(f"{line.count} ({line.count_detail})" if line.count_detail else line.count)))
     if line.purity:
         pairs.append(("Purity", escape(line.purity)))
     if line.amount_detail:
@@ -518,9 +519,9 @@ def render_plate_report(
     body.append('<p class="tally">' + "".join(f"<span>{_badge(v)} {n}</span>" for v, n in counts.items() if n) + "</p></section>")
     body.append(f'<section><h2 id="attention">Needs your attention ({len(attention)})</h2>')
     with_purity = any(ln.purity for ln in lines.values())
-    body.append(_triage_list(attention, empty="nothing: every screened well is ready for its next step", purity=with_purity))
+    body.append(_triage_list(attention, empty="nothing: every screened well is ready for its next step", purity=with_purity, kind="attention"))
     body.append(f'<h2 id="ready">Ready for the next step ({len(ready)})</h2>')
-    body.append(_triage_list(ready, empty="no well is consistent with enough material yet", purity=with_purity))
+    body.append(_triage_list(ready, empty="no well is consistent with enough material yet", purity=with_purity, kind="ready"))
     body.append("</section></div>")
 
     body.append('<h2 id="all-wells">All wells</h2>')

@@ -262,16 +262,19 @@ def spectrum_svg(
             if not (lo <= p <= hi):
                 continue
             h = float(g.get("n_h") or 1)
-            bar = 0.35 * (plot_bottom - plot_top) * h / most
+            bar = 0.5 * (plot_bottom - plot_top) * h / most
             tip = f"{g.get('label') or 'predicted'}: {p:.2f} ppm, {h:g} H (estimate +/- {tol:.2f} ppm)"
             # A bar as tall as the environment's protons, a whisker as wide as the estimate's tolerance.
-            dash = ' stroke-dasharray="3 2"' if g.get("exchangeable") else ""
-            out.append(
-                f'<g><title>{escape(tip)}</title>'
+            # Exchangeable H (wide, solvent-dependent range) get a dashed bar and no whisker.
+            exchangeable = bool(g.get("exchangeable"))
+            whisker = "" if exchangeable else (
                 f'<line x1="{sx(p + tol):.2f}" y1="{plot_bottom - 2:.1f}" x2="{sx(p - tol):.2f}" y2="{plot_bottom - 2:.1f}" stroke="{ink["predicted"]}" '
-                f'stroke-width="1" stroke-opacity="0.6" vector-effect="non-scaling-stroke"{dash}/>'
+                f'stroke-width="1.2" stroke-opacity="0.7" vector-effect="non-scaling-stroke"/>')
+            dash = ' stroke-dasharray="4 3"' if exchangeable else ""
+            out.append(
+                f'<g><title>{escape(tip)}</title>{whisker}'
                 f'<line x1="{sx(p):.2f}" y1="{plot_bottom - 2:.1f}" x2="{sx(p):.2f}" y2="{plot_bottom - 2 - bar:.1f}" stroke="{ink["predicted"]}" '
-                f'stroke-width="3" stroke-opacity="0.8" vector-effect="non-scaling-stroke"/></g>'
+                f'stroke-width="4" stroke-opacity="0.75" vector-effect="non-scaling-stroke"{dash}/></g>'
             )
         out.append("</g>")
     out.append("</g></g>")

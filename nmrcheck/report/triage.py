@@ -185,13 +185,21 @@ def _known(result: WellResult) -> str:
 
 
 def _related(result: WellResult) -> tuple[str, ...]:
-    for name in ("related_wells", "msms_group", "ms_group"):
-        v = _get(result, name)
-        if isinstance(v, Mapping):
-            v = v.get("wells")
-        if v:
-            return tuple(str(w) for w in v if str(w) != result.well)
-    return ()
+    """Wells whose MS/MS spectra group with this one (the LC-MS stage's groups, in whichever shape it stores them)."""
+    found: list[str] = []
+    names = {f for f in result.as_dict()} | {"related_wells", "msms_group", "msms_groups", "ms_groups", "spectral_groups"}
+    for name in sorted(names):
+        if not any(k in name for k in ("related", "msms_group", "ms_group", "spectral_group")):
+            continue
+        value = getattr(result, name, None)
+        if not value:
+            continue
+        groups = value if isinstance(value, (list, tuple)) and value and isinstance(value[0], Mapping) else [value]
+        for g in groups:
+            wells = g.get("wells") if isinstance(g, Mapping) else g
+            if isinstance(wells, (list, tuple)) and (result.well in [str(w) for w in wells] or not isinstance(g, Mapping) or len(groups) == 1):
+                found += [str(w) for w in wells if str(w) != result.well]
+    return tuple(dict.fromkeys(found))
 
 
 def format_amount(amount: Mapping[str, Any] | None) -> tuple[str, float | None, str]:
@@ -238,7 +246,7 @@ def _count(result: WellResult, check: Mapping[str, Any] | None) -> tuple[str, st
         return text, own + "; the integrals fit more than one proton unit equally well", True
     if check and isinstance(check.get("counted_h"), (int, float)):
         name = check.get("label") or check.get("formula") or "the best candidate"
-        return f"{int(check['counted_h'])} H", f"{check['counted_h']} H as the check of {name} counted them; {own}".strip("; "), False
+        return f"{int(check['counted_h'])} H", f"as the check of {name} counted them; {own}".strip("; "), False
     if count.get("total_h") is not None:
         return f"{float(count['total_h']):.1f} H", own, False
     return "", "", False
@@ -287,6 +295,10 @@ def well_line(result: WellResult, activity: AssayReadout | None = None) -> WellL
     if result.status in ("unreadable", "error"):
         concern = result.status
         reason = (result.error or "the recording could not be read").splitlines()[0]
+        head, sep, rest = reason.partition(": ")
+        if sep and re.search(r"[\\/]", head):
+            # The path is in the details; the line keeps the file's name and what is wrong with it.
+            reason = re.split(r"[\\/]", head)[-1] + ": " + rest
     elif result.status == "empty" or verdict == "empty":
         concern = "empty"
         reason = "no analyte signal above the noise"

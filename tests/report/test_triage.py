@@ -75,3 +75,10 @@ def test_no_shipped_source_shows_from_memory_to_users():
 def test_display_units():
     assert display_units("20.9 nmol +- 20 %, 3.2 ug in 35 uL") == "20.9 nmol ± 20 %, 3.2 µg in 35 µL"
     assert format_amount(None) == ("", None, "")
+
+
+def test_related_wells_from_msms_groups():
+    r = _result(verdict="consistent")
+    # As the LC-MS stage writes a group (nmrcheck.ms.msms.SpectralGroup.as_dict).
+    object.__setattr__(r, "msms_groups", [{"wells": ["A1", "B4", "C2"], "relation": "related", "summary": "x"}, {"wells": ["D1", "D2"]}])
+    assert well_line(r).related == ("B4", "C2")
