@@ -10,7 +10,7 @@ import numpy as np
 from nmrcheck.errors import ParameterError
 from nmrcheck.processing.results import ProtonCount, Region
 
-__all__ = ["count_protons", "find_unit"]
+__all__ = ["bounded_unit", "competing_units", "count_protons", "find_unit"]
 
 #: Integration error model used to choose the unit: a region of n protons reads
 #: n * (1 +- RELATIVE_ERROR) +- ABSOLUTE_ERROR protons. Routine 1H spectra acquired with
@@ -24,21 +24,65 @@ ABSOLUTE_ERROR = 0.15
 PARSIMONY = 0.2
 #: Cost of the share of signal that a unit leaves in regions under half a proton.
 MINOR_PENALTY = 4.0
+#: Two units whose costs differ by less than half of one proton-per-region Occam step fit the
+#: integrals "about equally": only the preference for fewer protons separated them, so the
+#: count is reported as ambiguous between them.
+AMBIGUITY_MARGIN = PARSIMONY / 2.0
 #: Relative integration error added to the range of the total, for baseline and
 #: relaxation losses (common practice for routine, not fully quantitative, spectra).
 SYSTEMATIC_FRACTION = 0.03
 
 
-def _cost(integrals: np.ndarray, unit: float) -> float:
-    """Misfit of region integrals to whole protons at ``unit``, plus the Occam and minor-signal terms."""
+def _misfit(integrals: np.ndarray, unit: float) -> tuple[float, float, np.ndarray]:
+    """(mean squared misfit in error units, share left in minor regions, integer H per major region)."""
     h = integrals / unit
     major = h >= 0.5
     if not major.any():
-        return np.inf
+        return np.inf, 1.0, np.zeros(0)
     n = np.maximum(np.round(h[major]), 1.0)
     z = (h[major] - n) / (RELATIVE_ERROR * n + ABSOLUTE_ERROR)
-    minor_share = integrals[~major].sum() / integrals.sum()
-    return float(np.mean(z * z) + PARSIMONY * n.sum() / n.size + MINOR_PENALTY * minor_share)
+    minor_share = float(integrals[~major].sum() / integrals.sum())
+    return float(np.mean(z * z)), minor_share, n
+
+
+def _cost(integrals: np.ndarray, unit: float) -> float:
+    """Misfit of region integrals to whole protons at ``unit``, plus the Occam and minor-signal terms."""
+    misfit, minor_share, n = _misfit(integrals, unit)
+    if not np.isfinite(misfit):
+        return np.inf
+    return float(misfit + PARSIMONY * n.sum() / n.size + MINOR_PENALTY * minor_share)
+
+
+def _candidate_units(arr: np.ndarray, max_h_per_region: int) -> np.ndarray:
+    top = np.sort(arr)[::-1][:16]
+    cands = np.unique(np.concatenate([top / m for m in range(1, max_h_per_region + 1)]))
+    cands = cands[cands >= arr.max() / (3 * max_h_per_region)]
+    return np.unique(np.concatenate([cands, [_polish(arr, u) for u in cands]]))
+
+
+def competing_units(integrals: Sequence[float], best_unit: float, *, margin: float = AMBIGUITY_MARGIN) -> list[float]:
+    """Units giving two or three times (or a half or a third of) the best count at nearly its cost.
+
+    Relaxation weighting, overlap and a few missing or extra protons can make the
+    integrals fit n and 2n protons about equally: every 2 H signal reading as 1 H,
+    or every 1 H as 2 H. Each such multiple of ``best_unit`` is refined on its own
+    integer assignment; those whose cost (misfit, Occam and minor-signal terms,
+    :func:`find_unit`) lies within ``margin`` of the best unit's cost are returned,
+    fewest protons first. Only the Occam term chose between them and the best.
+    """
+    arr = np.asarray([x for x in integrals if x > 0], float)
+    best_cost = _cost(arr, best_unit)
+    best_total = _misfit(arr, best_unit)[2].sum()
+    out: dict[int, float] = {}
+    for factor in (3.0, 2.0, 0.5, 1.0 / 3.0):
+        u = _polish(arr, best_unit * factor)
+        misfit, _, n = _misfit(arr, u)
+        if not np.isfinite(misfit) or _cost(arr, u) > best_cost + margin:
+            continue
+        total = int(n.sum())
+        if abs(total - best_total) >= 0.25 * best_total:
+            out[total] = float(u)
+    return [out[t] for t in sorted(out)]
 
 
 def find_unit(integrals: Sequence[float], *, max_h_per_region: int = 12) -> tuple[float, float]:
@@ -54,16 +98,36 @@ def find_unit(integrals: Sequence[float], *, max_h_per_region: int = 12) -> tupl
     arr = np.asarray([x for x in integrals if x > 0], float)
     if arr.size == 0:
         raise ParameterError("integrals: no positive region to count protons from")
-    top = np.sort(arr)[::-1][:16]
-    cands = np.unique(np.concatenate([top / m for m in range(1, max_h_per_region + 1)]))
-    cands = cands[cands >= arr.max() / (3 * max_h_per_region)]
     best_u, best_c = float(arr.max()), np.inf
-    for u in cands:
-        for v in (u, _polish(arr, u)):
-            c = _cost(arr, v)
-            if c < best_c - 1e-12:
-                best_u, best_c = float(v), c
+    for u in _candidate_units(arr, max_h_per_region):
+        c = _cost(arr, u)
+        if c < best_c - 1e-12:
+            best_u, best_c = float(u), c
     return best_u, best_c
+
+
+def bounded_unit(integrals: Sequence[float], allowed_totals: Sequence[int]) -> tuple[float, int]:
+    """(unit, total) among whole-proton totals a caller allows (e.g. candidate formulas' visible H).
+
+    For each allowed total N the unit starts at the summed integral over N and is
+    refined by least squares on its own integer assignment; the pair with the
+    lowest cost whose integer total stays within one proton of N wins.
+    """
+    arr = np.asarray([x for x in integrals if x > 0], float)
+    if arr.size == 0:
+        raise ParameterError("integrals: no positive region to count protons from")
+    best = None
+    for total in sorted({int(t) for t in allowed_totals if int(t) > 0}):
+        for u in (arr.sum() / total, _polish(arr, arr.sum() / total)):
+            misfit, _, n = _misfit(arr, u)
+            if not np.isfinite(misfit) or abs(n.sum() - total) > 1:
+                continue
+            c = _cost(arr, u)
+            if best is None or c < best[0]:
+                best = (c, float(u), total)
+    if best is None:
+        raise ParameterError(f"candidate_h_counts: no allowed total ({', '.join(map(str, allowed_totals))}) fits the integrals")
+    return best[1], best[2]
 
 
 def _polish(arr: np.ndarray, unit: float) -> float:
@@ -80,6 +144,9 @@ def count_protons(
     *,
     integral_sigma: Sequence[float] | None = None,
     anchor_h: int | None = None,
+    candidate_h_counts: Sequence[int] | None = None,
+    undetected_integral: float = 0.0,
+    undetected_sigma: float = 0.0,
 ) -> tuple[tuple[Region, ...], ProtonCount]:
     """Protons per counted region and in total.
 
@@ -93,20 +160,34 @@ def count_protons(
     anchor_h
         A known number of observable protons: the unit becomes the counted total over
         this number, and the residuals say how well the regions fit integers.
+    candidate_h_counts
+        Whole-proton totals the candidate formulas allow (visible H); the unit is then
+        chosen among them (:func:`bounded_unit`), not from the integrals alone.
+    undetected_integral, undetected_sigma
+        Integral (and its noise) of the analyte range outside every region: signal too
+        weak to stand out as a region. It widens the top of the range: below the
+        detection limit a signal is an uncertainty, not zero.
     """
     counted_idx = [i for i, r in enumerate(regions) if r.counted and r.integral > 0]
     if not counted_idx:
         raise ParameterError("regions: no analyte signal to count")
     integrals = np.array([regions[i].integral for i in counted_idx])
     sig = np.zeros(len(regions)) if integral_sigma is None else np.asarray(integral_sigma, float)
+    alternatives: list[float] = []
+    bounded: tuple[int, ...] | None = None
     if anchor_h is not None:
         if anchor_h <= 0:
             raise ParameterError(f"anchor_h: must be a positive number of protons, got {anchor_h}")
         unit = float(integrals.sum() / anchor_h)
         method = "anchored"
+    elif candidate_h_counts:
+        bounded = tuple(sorted({int(t) for t in candidate_h_counts}))
+        unit, _ = bounded_unit(integrals, bounded)
+        method = "bounded by candidate formulas"
     else:
         unit, _ = find_unit(integrals)
         method = "self-consistent"
+        alternatives = competing_units(integrals, unit)
     out = list(regions)
     hs = integrals / unit
     for i, h in zip(counted_idx, hs):
@@ -118,15 +199,27 @@ def count_protons(
     # Minor regions (under half a proton each) may be impurities rather than the analyte:
     # the low end of the range is what the major regions alone hold.
     low = min(total - half, integer - 2.0 * noise_h - 0.3)
+    unseen = max(0.0, undetected_integral + 2.0 * undetected_sigma) / unit
+    high = total + half + unseen
     residuals = tuple(float(h - np.round(h)) for h in hs)
+    totals: tuple[float, ...] = ()
+    if alternatives:
+        totals = tuple(sorted({round(total, 2)} | {round(float(integrals.sum() / u), 2) for u in alternatives}))
+        scale = [t / total for t in totals]
+        low = min(low, low * min(scale))
+        high = max(high, (total + half) * max(scale) + unseen)
     count = ProtonCount(
         unit_integral=unit,
         total_h=total,
         total_h_low=max(0.0, low),
-        total_h_high=total + half,
+        total_h_high=high,
         integer_h=integer,
         method=method,
         anchored_to=anchor_h,
         residuals=residuals,
+        ambiguous=bool(alternatives),
+        alternative_totals=totals,
+        bounded_by=bounded,
+        undetected_h=unseen,
     )
     return tuple(out), count

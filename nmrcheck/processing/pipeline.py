@@ -65,6 +65,9 @@ class ProcessingOptions:
     """Smallest integral, in standard deviations of its own noise, that is counted."""
     merge_hz: float = 6.0
     anchor_h: int | None = None
+    candidate_h_counts: tuple[int, ...] | None = None
+    """Whole-proton totals the candidate formulas allow (visible H): the proton unit is then
+    chosen among them (the plate manifest and ``check`` pass them)."""
     suppression_halfwidth_ppm: float = 0.6
     """Largest half-width left out around the carrier when the pulse program presaturates
     (the zone actually left out is measured on the spectrum)."""
@@ -121,6 +124,29 @@ def _suppression_ranges(spectrum: Spectrum, options: ProcessingOptions) -> list[
 #: Lines this close outside a suppression zone are still distorted by it (partial
 #: saturation, the zone's own sloping foot): they are read but do not steer the phase.
 PHASE_GUARD_PPM = 0.1
+
+
+#: Where analyte signal is looked for when estimating what lies below the detection limit, ppm
+#: (1H shifts of organic compounds; common practice).
+ANALYTE_RANGE_PPM = (0.3, 10.0)
+
+
+def _undetected_integral(spectrum: Spectrum, regions, noise: float, exclude) -> tuple[float, float]:
+    """(integral, its noise) of the analyte range outside every region and excluded zone.
+
+    Signal too weak to form a region still adds area there; noise adds none on average.
+    Only the positive side is of interest to the caller (it widens the top of the range).
+    """
+    ppm = spectrum.ppm
+    keep = (ppm >= ANALYTE_RANGE_PPM[0]) & (ppm <= ANALYTE_RANGE_PPM[1])
+    for r in regions:
+        keep &= ~((ppm <= r.start_ppm) & (ppm >= r.end_ppm))
+    for lo, hi in exclude:
+        keep &= ~((ppm >= min(lo, hi)) & (ppm <= max(lo, hi)))
+    n = int(keep.sum())
+    if n == 0:
+        return 0.0, 0.0
+    return float(spectrum.data.real[keep].sum() * spectrum.step_ppm), float(noise * spectrum.step_ppm * np.sqrt(n))
 
 
 def snr_of(spectrum: Spectrum, regions, noise: float) -> float:
@@ -208,7 +234,10 @@ def process(source: Fid | SpectrumFile | str | os.PathLike, options: ProcessingO
         for r, sg in zip(regions, sigmas)
     )
     if any(r.counted for r in regions):
-        regions, count = count_protons(regions, integral_sigma=sigmas, anchor_h=opts.anchor_h)
+        unseen, unseen_sigma = _undetected_integral(spec, regions, noise, exclude)
+        regions, count = count_protons(regions, integral_sigma=sigmas, anchor_h=opts.anchor_h,
+                                       candidate_h_counts=opts.candidate_h_counts,
+                                       undetected_integral=unseen, undetected_sigma=unseen_sigma)
     else:
         warnings.append("no analyte signal above the noise threshold")
     snr = snr_of(spec, regions, noise)

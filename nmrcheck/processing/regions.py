@@ -130,9 +130,39 @@ def find_regions(
         if flag is None:
             flag, label = _satellite(start, end, peak, integral, raw, spectrum.spectrometer_mhz)
         regions.append(Region(start, end, integral, None, flag, label, peak))
+    regions = _flag_dss_methylenes(regions, line_regions, reference_name)
     regions.extend(line_regions)
     regions.sort(key=lambda r: -r.start_ppm)
     return tuple(regions)
+
+
+#: DSS's trimethylene protons: 2 H each at 2.91, 1.75 and 0.63 ppm beside its 9 H methyl
+#: singlet at 0 ppm (common practice; Wishart et al. J. Biomol. NMR 1995 6 135, from memory).
+DSS_METHYLENES_PPM = (2.91, 1.75, 0.63)
+
+
+def _flag_dss_methylenes(regions: list[Region], line_regions: list[Region], reference_name: str | None) -> list[Region]:
+    """Flag DSS's three methylene multiplets by their pattern: position and 2/9 of the singlet's area.
+
+    A region at a methylene's shift holding up to 1.5 times the expected area is the
+    methylene; a larger one is an analyte signal on top of it, kept with the expected
+    DSS area taken out.
+    """
+    if reference_name != "DSS":
+        return regions
+    singlet = next((r for r in line_regions if r.flag == "reference"), None)
+    if singlet is None or singlet.integral <= 0:
+        return regions
+    expected = singlet.integral * 2.0 / 9.0
+    out = []
+    for r in regions:
+        if r.counted and r.peak_ppm is not None and any(abs(r.peak_ppm - m) <= 0.03 for m in DSS_METHYLENES_PPM):
+            if r.integral <= 1.5 * expected:
+                r = Region(r.start_ppm, r.end_ppm, r.integral, None, "reference", "DSS CH2 (2/9 of the DSS singlet)", r.peak_ppm)
+            else:
+                r = Region(r.start_ppm, r.end_ppm, r.integral - expected, None, None, "DSS CH2 area taken out", r.peak_ppm)
+        out.append(r)
+    return out
 
 
 def _singlet_model(spectrum: Spectrum, ppm: float, *, tol_ppm: float = 0.01, pattern: tuple[float, ...] = (1.0,)):
@@ -329,11 +359,6 @@ def _flag(start, end, peak, signals, reference_name, exclude_ppm, tol, mhz):
             return "reference", sig.name
         if sig.kind == "impurity" and width_ppm * mhz <= 25.0 and abs(peak - sig.ppm) <= 0.01:
             return "impurity", sig.name
-    if reference_name == "DSS":
-        # DSS's trimethylene signals (2.91, 1.75, 0.63 ppm; 2 H each) (common practice).
-        for ppm in (2.91, 1.75, 0.63):
-            if abs(peak - ppm) <= 0.02 and width_ppm * mhz <= 40.0:
-                return "reference", "DSS CH2"
     return None, None
 
 

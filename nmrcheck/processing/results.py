@@ -57,10 +57,21 @@ class ProtonCount:
     integer_h: int
     """Sum of the per-region integer proton counts."""
     method: str
-    """'self-consistent' (unit found from the data) or 'anchored' (unit from a given H count)."""
+    """'self-consistent' (unit found from the data), 'anchored' (unit from a given H count) or
+    'bounded by candidate formulas' (unit chosen among the totals the candidates allow)."""
     anchored_to: int | None = None
     residuals: tuple[float, ...] = ()
     """Per counted region, h minus its nearest integer."""
+    ambiguous: bool = False
+    """True when the integrals fit clearly different counts about equally well (typically n and
+    2n protons); ``alternative_totals`` then lists them and the range spans them all."""
+    alternative_totals: tuple[float, ...] = ()
+    """Totals (H) of the units that fit about equally well, the reported one included; empty
+    unless ``ambiguous``."""
+    bounded_by: tuple[int, ...] | None = None
+    """Whole-proton totals the caller allowed (candidate formulas' visible H), when given."""
+    undetected_h: float = 0.0
+    """Protons that signal too weak to form a region may hold (top of the range widened by it)."""
 
 
 @dataclass(frozen=True)

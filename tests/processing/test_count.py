@@ -1,0 +1,89 @@
+"""Proton counting: the unit from the integrals, its ambiguity, bounds from candidate formulas,
+and lines that must never be counted. Integrals are known by construction (nmrcheck.synth)."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from nmrcheck.errors import ParameterError
+from nmrcheck.processing import process
+from nmrcheck.processing.count import bounded_unit, competing_units, count_protons, find_unit
+from nmrcheck.processing.results import Region
+from nmrcheck.synth import Line, simulate_fid
+
+
+def _regions(integrals):
+    return [Region(10.0 - i, 9.5 - i, float(a), peak_ppm=9.75 - i) for i, a in enumerate(integrals)]
+
+
+def test_clear_integer_ratios_are_not_ambiguous():
+    """1:1:2:3 (a clean spectrum of 7 H): the unit is unique; doubling fits no better, so only
+    the preference for fewer protons separates 7 from 14 H by more than the ambiguity margin."""
+    regions, count = count_protons(_regions([1.0, 1.02, 1.98, 3.03]))
+    assert count.integer_h == 7
+    assert not count.ambiguous and count.alternative_totals == ()
+
+
+def test_half_reading_signals_make_the_count_ambiguous():
+    """Relaxation-weighted integrals (4-allylanisole's 2/2/1/2/3/2 H, the slowly relaxing ring and
+    vinyl protons at 55-60 % and the methyl at 90 % of their full area, as after a short delay):
+    about 6 and about 13 H fit about equally, so both are offered and the range spans them."""
+    protons = np.array([2.0, 2.0, 1.0, 2.0, 3.0, 2.0])
+    integrals = protons * np.array([0.6, 0.6, 0.55, 0.55, 0.9, 0.7])
+    _, count = count_protons(_regions(integrals))
+    assert count.ambiguous
+    assert min(count.alternative_totals) <= 6.5 and max(count.alternative_totals) >= 11.5
+    assert count.total_h_low <= 6.5 and count.total_h_high >= 11.5
+
+
+def test_competing_units_are_multiples_of_the_best():
+    integrals = np.array([2.0, 2.0, 1.0, 2.0, 3.0, 2.0]) * np.array([0.6, 0.6, 0.55, 0.55, 0.9, 0.7])
+    unit, _ = find_unit(integrals)
+    for u in competing_units(integrals, unit):
+        ratio = unit / u
+        assert min(abs(ratio - k) for k in (1 / 3, 0.5, 2.0, 3.0)) < 0.15
+
+
+def test_candidate_formulas_bound_the_unit():
+    """The relaxation-weighted integrals above, bounded by candidate formulas: with 12 H allowed
+    (4-allylanisole, C10H12O) the unit is the 12 H one, not the 6 H one the integrals alone prefer."""
+    integrals = list(np.array([2.0, 2.0, 1.0, 2.0, 3.0, 2.0]) * np.array([0.6, 0.6, 0.55, 0.55, 0.9, 0.7]))
+    unit, total = bounded_unit(integrals, [12])
+    assert total == 12
+    _, count = count_protons(_regions(integrals), candidate_h_counts=(12, 14))
+    assert count.method == "bounded by candidate formulas"
+    assert count.integer_h in (12, 13)
+    assert count.bounded_by == (12, 14)
+    with pytest.raises(ParameterError, match="candidate_h_counts"):
+        bounded_unit(integrals, [0])
+
+
+def test_undetected_signal_widens_the_top_of_the_range():
+    """Signal below the detection limit is an uncertainty, not zero: 2 units of unseen integral at
+    unit 1 raise the top of the range by about 2 H."""
+    _, plain = count_protons(_regions([1.0, 1.0, 2.0, 3.0]))
+    _, wider = count_protons(_regions([1.0, 1.0, 2.0, 3.0]), undetected_integral=2.0, undetected_sigma=0.1)
+    assert wider.total_h_high - plain.total_h_high == pytest.approx(2.2, abs=0.05)
+    assert wider.undetected_h == pytest.approx(2.2, abs=0.05)
+
+
+# An invented compound in D2O with DSS: its 9 H singlet at 0 ppm and its three 2 H methylene
+# multiplets (2.91, 1.75, 0.63 ppm; common practice) must never be counted.
+ANALYTE = [Line(7.40, 2.0, 1.0, (8.0,)), Line(7.05, 2.0, 1.0, (8.0,)), Line(3.95, 2.0, 1.0, (6.5, 6.5)),
+           Line(3.30, 3.0, 1.0)]
+DSS = [Line(0.0, 9.0 * 0.2, 0.8), Line(2.91, 2.0 * 0.2, 1.0, (7.5, 7.5)), Line(1.75, 2.0 * 0.2, 1.0, (7.5, 7.5, 7.5, 7.5)),
+       Line(0.63, 2.0 * 0.2, 1.0, (8.0, 8.0))]
+
+
+def test_dss_singlet_and_methylenes_are_never_counted():
+    """DSS at a fifth of the analyte's molar amount: the singlet sets the axis (flag 'reference') and
+    the three methylene multiplets are flagged, so the analyte's 9 H are all that is counted."""
+    fid = simulate_fid(ANALYTE + DSS, spectrometer_mhz=600.0, sweep_width_hz=7200.0, points=32768, carrier_ppm=4.7,
+                       noise=2e-4, seed=7)
+    p = process(fid, solvent="D2O")
+    assert p.reference.kind == "DSS"
+    for ppm in (0.0, 2.91, 1.75, 0.63):
+        near = [r for r in p.regions if r.peak_ppm is not None and abs(r.peak_ppm - ppm) < 0.05]
+        assert near and all(not r.counted for r in near), ppm
+    assert p.count.integer_h == 9
