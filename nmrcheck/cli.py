@@ -281,8 +281,11 @@ def plate_group() -> None:
 @click.option("--scheduler", default=None, help="Dask distributed scheduler address (needs the 'dask' extra) instead of local processes.")
 @click.option("--no-report", is_flag=True, help="Do not write the HTML report and exports at the end.")
 @click.option("--assay", "assay_path", type=click.Path(dir_okay=False), default=None, help="Bioassay readouts per well (CSV: well,value[,unit,threshold,hit_when,assay]) to join in the report.")
+@click.option("--lcms", "lcms_run", type=click.Path(dir_okay=False), default=None, help="The extract's LC-MS run (mzML): each well's MS features come from it (the manifest's own entries win).")
+@click.option("--timetable", type=click.Path(dir_okay=False), default=None, help="Fraction-collection timetable (CSV: well, start_min, end_min) for --lcms.")
+@click.option("--collector-delay-min", "collector_delay_min", type=Number(0, 100), default=0.0, show_default=True, help="Time from the MS detector to the fraction collector, minutes.")
 @user_errors
-def plate_run(manifest, out_dir, workers, watch, time_limit_h, poll_s, redo, layout, lb_hz, mass_tolerance_ppm, library, genus, family, scheduler, no_report, assay_path) -> None:
+def plate_run(manifest, out_dir, workers, watch, time_limit_h, poll_s, redo, layout, lb_hz, mass_tolerance_ppm, library, genus, family, scheduler, no_report, assay_path, lcms_run, timetable, collector_delay_min) -> None:
     """Screen every well of MANIFEST into --out; rerunning resumes. Exit 0 when the run completed."""
     from dataclasses import replace
 
@@ -294,6 +297,11 @@ def plate_run(manifest, out_dir, workers, watch, time_limit_h, poll_s, redo, lay
         from nmrcheck.io.assay import read_assay
 
         read_assay(assay_path)  # a broken assay file stops the run before any well is screened
+    lcms = None
+    if lcms_run or timetable:
+        from nmrcheck.plate.lcms import attach_run
+
+        plate, lcms = attach_run(plate, lcms_run, timetable, collector_delay_min=collector_delay_min)
     processing = ProcessingOptions() if lb_hz is None else ProcessingOptions(lb_hz=lb_hz)
     options = ScreenOptions(processing=processing)
     if mass_tolerance_ppm is not None:
@@ -330,12 +338,47 @@ def plate_run(manifest, out_dir, workers, watch, time_limit_h, poll_s, redo, lay
     finally:
         if client is not None:
             client.close()
+    if lcms is not None:
+        from nmrcheck.plate.lcms import save_lcms
+
+        save_lcms(out_dir, lcms)
+        for group in lcms.groups:
+            click.echo(f"MS/MS: {group.summary}")
     if not no_report:
         from nmrcheck.report.plate_report import write_plate_report
 
         report = write_plate_report(out_dir, assay=assay_path)
         click.echo(f"report: {report}")
     click.echo(summary.describe())
+
+
+@plate_group.command("features", context_settings=CONTEXT)
+@click.argument("run", type=click.Path(dir_okay=False))
+@click.argument("timetable", type=click.Path(dir_okay=False))
+@click.option("--collector-delay-min", "collector_delay_min", type=Number(0, 100), default=0.0, show_default=True, help="Time from the MS detector to the fraction collector, minutes.")
+@click.option("--manifest", "existing", type=click.Path(dir_okay=False), default=None, help="An existing manifest to mix with: its non-empty cells win.")
+@click.option("--spectrum", default="fids/{well}/1", show_default=True, help="Recording path of wells the existing manifest does not name.")
+@click.option("--out", "out_path", type=click.Path(dir_okay=False), default=None, help="Write the plate manifest here (CSV).")
+@click.option("--json", "as_json", is_flag=True, help="Print every well's features and the MS/MS groups as JSON.")
+@user_errors
+def plate_features(run, timetable, collector_delay_min, existing, spectrum, out_path, as_json) -> None:
+    """Per-well MS features from the extract's LC-MS RUN (mzML) and the fraction TIMETABLE; optionally write the manifest."""
+    import json
+
+    from nmrcheck.plate.lcms import analyse_run, features_text, manifest_rows, write_manifest
+
+    lcms = analyse_run(run, timetable, collector_delay_min=collector_delay_min)
+    if out_path:
+        from nmrcheck.plate import read_manifest
+
+        old = read_manifest(existing) if existing else None
+        write_manifest(out_path, manifest_rows(lcms, spectrum=spectrum, existing=old), comment=f"MS features from {run} and {timetable}")
+    if as_json:
+        click.echo(json.dumps({"plate": lcms.as_dict(), "wells": {w: lcms.well_record(w) for w in lcms.wells}}, indent=1))
+    else:
+        click.echo(features_text(lcms))
+    if out_path:
+        click.echo(f"manifest: {out_path}", err=as_json)
 
 
 @plate_group.command("report", context_settings=CONTEXT)

@@ -22,7 +22,7 @@ import numpy as np
 
 from nmrcheck.synth import Line, simulate_fid
 
-__all__ = ["COMPOUNDS", "DemoWell", "demo_assay", "demo_wells", "build_demo_plate", "run_demo", "SCENARIO"]
+__all__ = ["COMPOUNDS", "DemoWell", "demo_assay", "demo_wells", "build_demo_plate", "build_demo_lcms", "run_demo", "SCENARIO", "DEMO_DELAY_MIN"]
 
 log = logging.getLogger("nmrcheck")
 
@@ -197,8 +197,68 @@ def _fid_for(well: DemoWell, *, points: int, seed: int):
     )
 
 
-def build_demo_plate(out_dir: str | os.PathLike, *, points: int = 32768, wells: tuple[DemoWell, ...] | None = None, seed: int = 7) -> Path:
+# The LC-MS side of the scenario: the plate was cut from one 10-minute run of the extract, wells
+# A1..C12 collected in 0.25-min windows from 1.0 min, the collector 0.15 min behind the detector.
+DEMO_DELAY_MIN = 0.15
+DEMO_WINDOW_MIN = 0.25
+DEMO_FIRST_MIN = 1.0
+
+# MS/MS product ions of the protonated molecules (compositions of the ions, relative intensities):
+# hand-written, plausible losses (CH3OH, CO, CH3NCO) for the demo, not reference spectra.
+# Coumarin and umbelliferone share the benzopyranone scaffold (umbelliferone's ions carry one O more);
+# the methyl benzoates likewise (methyl gallate's carry two O more).
+FRAGMENTS: dict[str, tuple[tuple[str, float], ...]] = {
+    "coumarin": (("C8H7O", 100.0), ("C7H7", 55.0), ("C6H5", 30.0), ("C5H5", 20.0)),
+    "umbelliferone": (("C8H7O2", 100.0), ("C7H7O", 60.0), ("C6H5O", 35.0), ("C5H5O", 20.0)),
+    "methyl 4-hydroxybenzoate": (("C7H5O2", 100.0), ("C6H5O", 45.0), ("C5H5", 25.0), ("C4H3", 15.0)),
+    "methyl gallate": (("C7H5O4", 100.0), ("C6H5O3", 50.0), ("C5H5O2", 25.0), ("C4H3O2", 15.0)),
+    "caffeine": (("C6H8N3O", 100.0), ("C5H8N3", 30.0), ("C4H7N2", 15.0), ("C3H5N2", 20.0)),
+}
+
+# A fictional sesquiterpenoid co-eluting in one well: the LC-MS shows that well is a mixture.
+COELUTING = ("B2", "nocturnol A (fictional)", "C15H24O2", 0.7)
+
+
+def _demo_compounds(wells: tuple[DemoWell, ...], seed: int):
+    from nmrcheck.ms.simulate import SimulatedCompound
+
+    rng = np.random.default_rng(seed + 11)
+    out = []
+    for k, w in enumerate(wells):
+        if w.content is None:
+            continue
+        c = COMPOUNDS[w.content]
+        # Apex in the middle of the well's detector window.
+        rt = DEMO_FIRST_MIN + DEMO_WINDOW_MIN * (k + 0.5) - DEMO_DELAY_MIN + float(rng.uniform(-0.02, 0.02))
+        abundance = 4e5 * max(w.amount, 0.15)
+        ions = (("[M+H]+", 1.0), ("[M+Na]+", 0.3)) + ((("[2M+H]+", 0.08),) if w.amount >= 1.5 else ())
+        out.append(SimulatedCompound(f"{w.well} {c.name}", c.formula, rt, abundance, ions, 5.0, FRAGMENTS.get(c.name, ())))
+        if w.well == COELUTING[0]:
+            out.append(SimulatedCompound(COELUTING[1], COELUTING[2], rt + 0.01, abundance * COELUTING[3], (("[M+H]+", 1.0), ("[M+NH4]+", 0.5), ("[M+H-H2O]+", 0.4)), 5.0))
+    return out
+
+
+def build_demo_lcms(plate: Path, wells: tuple[DemoWell, ...], *, seed: int = 7) -> tuple[Path, Path]:
+    """Write the extract's invented LC-MS run (``lcms/extract.mzML``) and the fraction timetable (``lcms/timetable.csv``)."""
+    from nmrcheck import __version__
+    from nmrcheck.io.mzml import write_mzml
+    from nmrcheck.io.timetable import FractionWindow, write_timetable
+    from nmrcheck.ms.simulate import simulate_run
+
+    folder = Path(plate) / "lcms"
+    scans = simulate_run(_demo_compounds(wells, seed), duration_min=10.0, scan_interval_s=0.5, seed=seed)
+    run = write_mzml(folder / "extract.mzML", scans, run_id="calyxia-nocturna-extract", software_version=__version__)
+    windows = [FractionWindow(w.well, DEMO_FIRST_MIN + DEMO_WINDOW_MIN * k, DEMO_FIRST_MIN + DEMO_WINDOW_MIN * (k + 1)) for k, w in enumerate(wells)]
+    table = write_timetable(folder / "timetable.csv", windows, comment=f"{SCENARIO} Collector {DEMO_DELAY_MIN} min behind the MS detector.")
+    return run, table
+
+
+def build_demo_plate(out_dir: str | os.PathLike, *, points: int = 32768, wells: tuple[DemoWell, ...] | None = None, seed: int = 7, lcms: bool = False) -> Path:
     """Write the demo plate's recordings (Bruker folders), its manifest and invented assay readouts (``assay.csv``); return the manifest path.
+
+    With ``lcms``, the extract's LC-MS run and the fraction timetable are written too
+    (:func:`build_demo_lcms`), and the manifest types an MS feature only where the chemist
+    overrode the run (the wells whose feature came from the neighbouring peak).
 
     Parameters
     ----------
@@ -214,8 +274,11 @@ def build_demo_plate(out_dir: str | os.PathLike, *, points: int = 32768, wells: 
 
     plate = Path(out_dir) / "plate"
     (plate / "fids").mkdir(parents=True, exist_ok=True)
+    wells = wells or demo_wells()
+    if lcms:
+        build_demo_lcms(plate, wells, seed=seed)
     rows = []
-    for k, w in enumerate(wells or demo_wells()):
+    for k, w in enumerate(wells):
         fid = _fid_for(w, points=points, seed=seed * 1000 + k)
         exp = plate / "fids" / w.well / "1"
         write_bruker_fid(fid, exp, overwrite=True)
@@ -226,13 +289,15 @@ def build_demo_plate(out_dir: str | os.PathLike, *, points: int = 32768, wells: 
             fid_file.write_bytes(data[: len(data) // 3])
         claimed = COMPOUNDS[w.claimed] if w.claimed else None
         feature = isotopes = formulas = structures = ""
+        typed = not lcms or (w.content is not None and w.claimed != w.content)
         if claimed is not None:
             formula = parse_formula(claimed.formula)
             # A measured m/z carries a small error (here within +-1.5 ppm).
             mz = ion_mz(formula.monoisotopic_mass, "[M+H]+") * (1 + float(np.random.default_rng(k).uniform(-1.5, 1.5)) * 1e-6)
-            feature = f"{mz:.5f} [M+H]+"
-            pattern = isotope_pattern(formula, ion="[M+H]+", max_peaks=3).relative()
-            isotopes = ",".join(f"{v:.1f}" for v in pattern)
+            if typed:
+                feature = f"{mz:.5f} [M+H]+"
+                pattern = isotope_pattern(formula, ion="[M+H]+", max_peaks=3).relative()
+                isotopes = ",".join(f"{v:.1f}" for v in pattern)
             formulas = claimed.formula
             structures = f"{claimed.name}: {claimed.smiles}"
         rows.append({
@@ -240,7 +305,7 @@ def build_demo_plate(out_dir: str | os.PathLike, *, points: int = 32768, wells: 
             "spectrum": "fids/{well}/1",
             "ms_feature": feature,
             "isotopes": isotopes,
-            "rt_min": f"{2.0 + 0.37 * k:.2f}",
+            "rt_min": "" if lcms else f"{2.0 + 0.37 * k:.2f}",
             "formulas": formulas,
             "structures": structures,
             "solvent": "",
@@ -270,14 +335,18 @@ def run_demo(out_dir: str | os.PathLike, *, workers: int | None = None, points: 
         The run summary (:class:`nmrcheck.plate.runner.RunSummary`), the HTML report and the wall time.
     """
     from nmrcheck.plate import read_manifest, run_plate
+    from nmrcheck.plate.lcms import attach_run, save_lcms
     from nmrcheck.report.plate_report import write_plate_report
 
     t0 = time.perf_counter()
     out = Path(out_dir)
-    manifest_path = build_demo_plate(out, points=points)
+    manifest_path = build_demo_plate(out, points=points, lcms=True)
     manifest = read_manifest(manifest_path)
+    lcms_dir = manifest_path.parent / "lcms"
+    manifest, lcms = attach_run(manifest, lcms_dir / "extract.mzML", lcms_dir / "timetable.csv", collector_delay_min=DEMO_DELAY_MIN)
     options = _demo_options(out)
     summary = run_plate(manifest, out / "results", options=options, workers=workers, progress=progress, redo=True)
+    save_lcms(out / "results", lcms)
     report = write_plate_report(out / "results", title="Demo plate - Calyxia nocturna (fictional) extract, fractions 1-36", subtitle=SCENARIO,
                                 assay=manifest_path.parent / "assay.csv")
     return summary, report, time.perf_counter() - t0

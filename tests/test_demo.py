@@ -37,6 +37,17 @@ def test_demo_runs_end_to_end(tmp_path):
     assert (report.parent / "assay.csv").is_file()
     html = report.read_text(encoding="utf-8")
     assert "active (" in html and 'class="active"' in html
+    # The LC-MS path: features from the invented run, a mixture well and MS/MS groups (by construction).
+    from nmrcheck.plate.lcms import load_lcms
+    from nmrcheck.plate.store import ResultsStore
+
+    with ResultsStore(report.parent) as store:
+        results = store.current(with_trace=False)
+    assert results["B2"].lcms["major_features"] == 2
+    assert results["B11"].lcms["features"] == []
+    assert results["A1"].lcms["manifest_feature"]["source"] == "lcms" and results["A1"].ms_feature
+    assert results["A7"].lcms["manifest_feature"]["source"] == "manifest"
+    assert any(g["relation"] == "related" for g in load_lcms(report.parent)["groups"])
 
 
 def test_cli_plate_run_and_report(tmp_path):

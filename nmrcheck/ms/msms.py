@@ -359,7 +359,7 @@ class SpectralGroup:
     """(well, neutral mass) of each linked feature."""
     links: tuple[SpectralLink, ...]
     relation: str
-    """'same compound' when every link joins equal masses (one compound split over wells), else 'related'."""
+    """'same compound' when every link joins equal masses (e.g. one peak collected over neighbouring wells), else 'related'."""
     summary: str
 
     def as_dict(self) -> dict[str, Any]:
@@ -447,7 +447,7 @@ def spectral_groups(
         same = all(abs(l.mass_difference) <= max(l.neutral_mass_a, 1.0) * mass_tolerance_ppm * 1e-6 for l in glinks)
         if same:
             mass = items[members[0]][1]
-            summary = f"wells {_join(wells)} hold the same compound (M {mass:.4f}): probably one peak collected over neighbouring wells"
+            summary = f"wells {_join(wells)} show the same precursor mass (M {mass:.4f}) and fragments: probably the same compound"
         else:
             summary = f"wells {_join(wells)} share fragments: probably the same scaffold"
         out.append(SpectralGroup(tuple(wells), tuple(sorted(((items[k][0], items[k][1]) for k in members), key=lambda m: (_well_order(m[0]), m[1]))),

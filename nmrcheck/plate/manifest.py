@@ -110,6 +110,9 @@ class WellSpec:
     solvent: str | None = None
     """Solvent to assume when the recording does not name one."""
     notes: str = ""
+    lcms: dict | None = field(default=None, compare=False)
+    """The well's record from the extract's LC-MS run (features, MS/MS, related wells) when the plate
+    was given one (:func:`nmrcheck.plate.lcms.merge_lcms`); not a manifest column."""
 
     def as_dict(self) -> dict:
         return {
@@ -131,6 +134,10 @@ class WellSpec:
         d = self.as_dict()
         d.pop("line")
         d.pop("notes")
+        if self.lcms is not None:
+            from nmrcheck.plate.results import options_hash
+
+            d["lcms"] = options_hash(self.lcms)
         return d
 
 

@@ -78,6 +78,12 @@ class WellResult:
     candidate it is for, or the proton unit), with ``per_proton`` and the full quantification in ``details``."""
     recommendation: dict[str, Any] | None = None
     """Go/no-go for the next experiment: ``decision``, ``experiment``, ``reasons``, ``scans_needed``, ``hours_needed``."""
+    lcms: dict[str, Any] | None = None
+    """The well in the extract's LC-MS run, when the plate had one: collection and detector windows, ion
+    current, ``features`` (largest share first; each with ``neutral_mass``, ``ions`` (species, m/z, charge,
+    isotopes), ``rt_min``, ``share`` of the well's ion current, ``ms2`` spectra), ``major_features`` (how many
+    reach ``major_share``: more than one is evidence of a mixture), ``related_wells`` (MS/MS groups),
+    ``manifest_feature`` (which feature the formula search used) and ``fragment_checks`` (per candidate formula)."""
     error: str | None = None
     notes: tuple[str, ...] = ()
     """What the run could not do for this well and why (e.g. a stage not installed)."""

@@ -266,6 +266,42 @@ def _validate(processed, spec: WellSpec, options: ScreenOptions, objects: list[A
     return [_check_record(by_id[id(v.candidate)], v, evidence) for v in verdicts]
 
 
+def _fragment_checks(spec: WellSpec, lcms: dict[str, Any], records: list[dict[str, Any]], checks: list[dict[str, Any]] | None, notes: list[str]) -> None:
+    """MS/MS against each candidate formula: results into ``lcms['fragment_checks']``; a candidate
+    whose precursor ion cannot hold a clearly observed fragment becomes inconsistent, with the reason."""
+    from nmrcheck.chem.adducts import neutral_mass
+    from nmrcheck.plate.lcms import fragment_checks
+
+    formulas = [r["formula"] for r in records if r.get("formula")]
+    if not formulas:
+        return
+    mass = None
+    if spec.ms_features:
+        try:
+            mass = neutral_mass(*spec.ms_features[0])
+        except NmrcheckError:
+            mass = None
+    try:
+        results = fragment_checks(lcms, formulas, neutral_mass=mass)
+    except NmrcheckError as exc:
+        notes.append(f"MS/MS not checked: {exc}")
+        return
+    lcms["fragment_checks"] = results
+    by_formula = {r["formula"]: r for r in results}
+    for c in checks or ():
+        r = by_formula.get(c.get("formula"))
+        if r is None or r["status"] == "no fragments":
+            continue
+        contradicted = r["status"] == "contradicted"
+        explanation = "; ".join(r["reasons"]) if contradicted else (
+            f"every clear fragment of m/z {r['precursor_mz']:.4f} ({r['species']}) is a sub-formula of {r['precursor_formula']}")
+        c.setdefault("checks", []).append({"name": "fragments", "status": "fail" if contradicted else "pass",
+                                           "observed": len(r["assignments"]), "expected": r["precursor_formula"], "explanation": explanation})
+        if contradicted:
+            c["verdict"] = "inconsistent"
+            c.setdefault("reasons", []).extend(r["reasons"])
+
+
 def _verdict_of(checks: list[dict[str, Any]] | None, records: list[dict[str, Any]]) -> str:
     """The well's call: the best verdict among the manifest's structures, else its formulas, else the HRMS formulas.
 
@@ -343,6 +379,7 @@ def screen_well(spec: WellSpec, directory: str, options: ScreenOptions) -> WellR
         "options_hash": well_options_hash(spec, options),
         "spec": spec.as_dict(),
         "ms_feature": {"ions": [list(f) for f in spec.ms_features], "isotopes": spec.isotopes and list(spec.isotopes), "rt_min": spec.rt_min} if spec.ms_features else None,
+        "lcms": dict(spec.lcms) if spec.lcms is not None else None,
     }
     path: Path | None = None
     try:
@@ -392,6 +429,9 @@ def screen_well(spec: WellSpec, directory: str, options: ScreenOptions) -> WellR
             checks = None
             notes.append(f"candidates not checked: {exc}")
         clock.lap("validate")
+        if base["lcms"] is not None:
+            _fragment_checks(spec, base["lcms"], candidates, checks, notes)
+            clock.lap("msms")
         try:
             amount, recommendation = _quantify(processed, options, checks, candidates, notes)
         except NmrcheckError as exc:

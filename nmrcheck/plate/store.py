@@ -59,6 +59,7 @@ CREATE TABLE IF NOT EXISTS history (
     result_json TEXT NOT NULL
 );
 CREATE INDEX IF NOT EXISTS history_well ON history (well);
+CREATE TABLE IF NOT EXISTS plate_records (key TEXT PRIMARY KEY, recorded_utc TEXT NOT NULL, value_json TEXT NOT NULL);
 """
 
 
@@ -175,6 +176,17 @@ class ResultsStore:
             {"seq": r[0], "run_id": r[1], "recorded_utc": r[2], "options_hash": r[3], "status": r[4], "verdict": r[5], "result": json.loads(r[6])}
             for r in rows
         ]
+
+    # -- plate-level records (e.g. the LC-MS run's groups of related wells)
+    def save_plate_record(self, key: str, value: dict[str, Any]) -> None:
+        """Store a JSON-ready record about the whole plate under ``key`` (replacing an earlier one)."""
+        with self._transaction():
+            self._conn.execute("INSERT OR REPLACE INTO plate_records VALUES (?, ?, ?)", (key, _utc(), json.dumps(value, sort_keys=True, default=str)))
+
+    def plate_record(self, key: str) -> dict[str, Any] | None:
+        """The plate-level record stored under ``key``, or None."""
+        row = self._conn.execute("SELECT value_json FROM plate_records WHERE key=?", (key,)).fetchone()
+        return json.loads(row[0]) if row else None
 
     def count_history(self) -> int:
         return int(self._conn.execute("SELECT COUNT(*) FROM history").fetchone()[0])
