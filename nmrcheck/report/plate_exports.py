@@ -114,7 +114,7 @@ def well_row(result: WellResult, line: WellLine | None = None) -> dict[str, str]
         "smiles": line.smiles,
         "purity": line.purity,
         "h_as_judged": line.count,
-        "reason": line.reason,
+        "reason": line.reason_detail or line.reason,
         "next_step": line.next_step,
         "assay": a.assay if a else "",
         "assay_value": _num(a.value) if a else "",
@@ -178,7 +178,7 @@ def _triage_dict(line: WellLine) -> dict[str, Any]:
         "h_detail": line.count_detail,
         "amount_ug": line.amount_ug,
         "next_step": line.next_step,
-        "reason": line.reason,
+        "reason": line.reason_detail or line.reason,
         "known": line.known,
         "related_wells": list(line.related),
     }

@@ -67,7 +67,7 @@ table{border-collapse:collapse;font-size:.9em;width:100%}
 th,td{border-bottom:1px solid var(--line);padding:.2em .4em;text-align:left;vertical-align:baseline}
 th{background:var(--panel);position:sticky;top:0;white-space:nowrap}
 table.wells td{white-space:nowrap;max-width:22em;overflow:hidden;text-overflow:ellipsis}
-table.wells td.why{max-width:34em}
+table.wells td.why{width:100%;max-width:0}
 table.wells td.num{text-align:right;font-variant-numeric:tabular-nums}
 table.sortable th{cursor:pointer;user-select:none} table.sortable th:after{content:' \\2195';color:#9aa4ad;font-size:.8em}
 table.sortable th[data-dir=asc]:after{content:' \\2191';color:var(--ink)} table.sortable th[data-dir=desc]:after{content:' \\2193';color:var(--ink)}
@@ -263,7 +263,7 @@ def _triage_list(lines: list[WellLine], *, empty: str, purity: bool, kind: str) 
             f"<span>{_badge(ln.verdict)}</span>"
             + (f'<span class="small">{_tip(ln.purity or "purity –", "purity call of the validation" if ln.purity else "no purity call")}</span>' if purity else "")
             + f'<span class="num">{_tip(ln.amount or "–", ln.amount_detail)}</span>'
-            f'<span class="why"><span class="concern">{escape(what)}</span> {act} {_tip(ln.reason, ln.reason)}</span></li>'
+            f'<span class="why"><span class="concern">{escape(what)}</span> {act} {_tip(ln.reason, ln.reason_detail)}</span></li>'
         )
     return f'<ol class="triage {kind}{"" if purity else " nopurity"}">' + "".join(items) + "</ol>"
 
@@ -315,7 +315,7 @@ def _table(lines: dict[str, WellLine], names: list[str], pending: set[str]) -> s
             "Bioassay": f'<td class="num" data-sort="{act_sort}">{_activity_cell(ln)}</td>',
             "Known?": f"<td>{escape(ln.known)}</td>",
             "Next step": f"<td>{_tip(ln.next_step, ln.next_detail)}</td>",
-            "Why": f'<td class="why">{_tip(ln.reason, ln.reason)}</td>',
+            "Why": f'<td class="why">{_tip(ln.reason, ln.reason_detail)}</td>',
         }
         rows.append(f'<tr data-well="{escape(w)}" data-groups="{escape(" ".join(g for g in groups if g))}">'
                     + "".join(v for k, v in cells.items() if shown.get(k, True)) + "</tr>")

@@ -95,7 +95,9 @@ class WellLine:
     next_step: str
     next_detail: str
     reason: str
-    """The one reason that matters for this well."""
+    """The one reason that matters for this well, in its first clause ('assignment: 4 of 10 H do not fit')."""
+    reason_detail: str = ""
+    """The same reason in full (for the tooltip and the exports)."""
     known: str = ""
     """'new' (no known compound at this mass), 'known (n candidates)', or '' when not searched."""
     activity: AssayReadout | None = None
@@ -171,6 +173,12 @@ def _purity(result: WellResult) -> tuple[str, bool]:
 
 
 def _known(result: WellResult) -> str:
+    """'known (n candidates)' or 'no known compound at this mass' from the known-compound search, '' when none ran."""
+    for note in result.notes:
+        if str(note).startswith("known compounds: "):
+            text = str(note)[len("known compounds: "):]
+            if text.startswith(("known", "no known")):
+                return text
     k = _get(result, "known")
     if not k:
         return ""
@@ -280,6 +288,17 @@ def _first_problem(check: Mapping[str, Any] | None, statuses: Sequence[str]) -> 
     return ""
 
 
+def _first_clause(text: str, *, limit: int = 110) -> str:
+    """'check: what failed' up to the first colon or semicolon after it, so the line stays one line."""
+    head, sep, rest = text.partition(": ")
+    if sep and len(head) <= 20:
+        cut = re.split(r"(?<=[^\d]): |; ", rest, maxsplit=1)[0]
+        short = f"{head}: {cut}"
+    else:
+        short = re.split(r"; ", text, maxsplit=1)[0]
+    return short if len(short) <= limit else short[: limit - 1].rstrip() + "…"
+
+
 def well_line(result: WellResult, activity: AssayReadout | None = None) -> WellLine:
     """The triage line of one well."""
     check = best_check(result)
@@ -344,7 +363,8 @@ def well_line(result: WellResult, activity: AssayReadout | None = None) -> WellL
         count_detail=count_detail,
         next_step=next_text,
         next_detail=next_detail,
-        reason=display_units(clean_citation(reason)),
+        reason=display_units(clean_citation(reason)) if concern in ("unreadable", "error") else _first_clause(display_units(clean_citation(reason))),
+        reason_detail=display_units(clean_citation(reason)),
         known=known,
         activity=activity,
         related=_related(result),

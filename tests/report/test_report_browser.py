@@ -74,6 +74,21 @@ _PROBE = r"""
     var vb = svg.viewBox.baseVal;
     out.spectra.push({id: svg.id, boxes: boxes, width: box(svg).right - box(svg).left, vb: [vb.width, vb.height]});
   });
+  // Zoom: the first spectrum's 'zoom in' button twice, then its tick labels and proton labels again.
+  var sp = document.querySelector('svg.spectrum');
+  if (sp){
+    var before = Array.prototype.map.call(sp.querySelectorAll('g.ticks text'), function(t){ return +t.textContent; });
+    var zin = sp.parentNode.querySelector('button[data-act="in"]'); zin.click(); zin.click();
+    var after = Array.prototype.map.call(sp.querySelectorAll('g.ticks text'), function(t){ return +t.textContent; });
+    var boxes = [];
+    sp.querySelectorAll('text').forEach(function(t){
+      var g = t.closest('g.hl'); if (g && g.style.display === 'none') return;
+      var b = t.getBBox(); boxes.push({text: t.textContent, x: b.x, y: b.y, w: b.width, h: b.height});
+    });
+    out.zoom = {before: before, after: after, transform: sp.querySelector('g.data').getAttribute('transform'), boxes: boxes};
+    sp.parentNode.querySelector('button[data-act="all"]').click();
+    out.zoom.reset = sp.querySelector('g.data').getAttribute('transform');
+  }
   var pre = document.createElement('pre'); pre.id = 'nmrcheck-probe'; pre.textContent = JSON.stringify(out);
   document.body.appendChild(pre);
 })();
@@ -190,6 +205,16 @@ def test_spectrum_labels_never_overlap(assayed_report, measured):
         assert not [b for b in labels if b["text"].startswith("0.0")], sp["id"]
         # Full width: the drawing spans the page's content column (1400 px window).
         assert sp["width"] > 1200, sp["id"]
+
+
+def test_zoom_in_the_page(measured):
+    z = measured["zoom"]
+    span = lambda ticks: max(ticks) - min(ticks)  # noqa: E731
+    # Two clicks on 'zoom in' halve the visible range twice: the ticks cover about a quarter of the span.
+    assert span(z["after"]) < 0.4 * span(z["before"]) and len(z["after"]) >= 4
+    assert "scale(4" in z["transform"].replace(" ", "")
+    assert not _overlaps(z["boxes"])
+    assert "scale(1," in z["reset"].replace(" ", "")
 
 
 def test_bioassay_column_sorts(assayed_report, measured):

@@ -82,3 +82,11 @@ def test_related_wells_from_msms_groups():
     # As the LC-MS stage writes a group (nmrcheck.ms.msms.SpectralGroup.as_dict).
     object.__setattr__(r, "msms_groups", [{"wells": ["A1", "B4", "C2"], "relation": "related", "summary": "x"}, {"wells": ["D1", "D2"]}])
     assert well_line(r).related == ("B4", "C2")
+
+
+def test_known_compound_search_shown():
+    # As the plate screen notes it (nmrcheck.plate.screen, nmrcheck.ms.library.KnownLookup.summary).
+    r = _result(verdict="consistent", notes=("known compounds: no known compound at this mass",))
+    assert well_line(r).known == "no known compound at this mass"
+    r = _result(verdict="consistent", notes=("known compounds: known (3 candidates)",))
+    assert well_line(r).known == "known (3 candidates)"
