@@ -97,11 +97,11 @@ def _both(*mutations):
 
 
 def _cut_acqus_inside(marker: str, next_line: bool = False):
-    """Cut acqus right after ``marker`` (inside a <...> string), or 5 bytes into the line after it (inside an array)."""
+    """Cut acqus 2 bytes after ``marker`` (inside a <...> string), or 5 bytes into the line after it (inside an array)."""
 
     def mutate(d: Path) -> Path:
         raw = _acqus(d).read_bytes()
-        i = raw.index(marker.encode()) + len(marker)
+        i = raw.index(marker.encode()) + len(marker) + (0 if next_line else 2)
         if next_line:
             i = raw.index(b"\n", i) + 6
         _acqus(d).write_bytes(raw[:i])
@@ -213,7 +213,7 @@ BRUKER: tuple[BadInput, ...] = (
     BadInput("GRPDLY=-1, DECIM missing", "silently wrong", "refuse", _both(_param("GRPDLY", "-1"), _drop("DECIM")), "DECIM"),
     BadInput("GRPDLY=-1, DECIM=nan", "silently wrong", "refuse", _both(_param("GRPDLY", "-1"), _param("DECIM", "nan")), "DECIM"),
     BadInput("GRPDLY text", "silently wrong", "refuse", _param("GRPDLY", "<x>"), "GRPDLY"),
-    BadInput("acqus cut inside <...>", "hang", "refuse", _cut_acqus_inside("##$PULPROG= <z"), "PULPROG"),
+    BadInput("acqus cut inside <...>", "hang", "refuse", _cut_acqus_inside("##$PULPROG= <"), "PULPROG"),
     BadInput("acqus cut inside an array", "hang", "refuse", _cut_acqus_inside("##$P= (0..63)", next_line=True), "$P"),
     BadInput("array of 10^9 items", "memory", "refuse", _acqus_bytes(lambda r: r.replace(b"##$P= (0..63)", b"##$P= (0..999999999)")), "array"),
     BadInput("acqus empty", "traceback", "refuse", _acqus_bytes(lambda r: b""), "empty"),
@@ -473,3 +473,109 @@ def copy_recording(src: Path, dst: Path, *, with_pdata: bool = False) -> Path:
     target = dst / src.name
     shutil.copyfile(src, target)
     return target
+
+
+# ----------------------------------------------------------------------------- options of `nmrcheck process`
+
+# (failure class measured on main, arguments after "process EXP", text the message must hold).
+# Click's usage errors print a usage line too; they are judged on status 2, no traceback, and
+# naming the option.
+PROCESS_OPTIONS: tuple[tuple[str, list[str], str], ...] = (
+    ("traceback", ["--lb", "nan"], "--lb"),
+    ("traceback", ["--phase", "nan,nan"], "--phase"),
+    ("traceback", ["--phase", "inf,0"], "--phase"),
+    ("traceback", ["--plot", "/nonexistent-folder/x.png"], "--plot"),
+    ("memory", ["--size", str(2**31)], "--size"),
+    ("memory", ["--size", str(2**26)], "--size"),
+    ("silently wrong", ["--anchor-h", "1000000000"], "--anchor-h"),
+    # Further cases of the same kinds, not among the issue's examples:
+    ("extra", ["--lb", "inf"], "--lb"),
+    ("extra", ["--lb", "-inf"], "--lb"),
+    ("extra", ["--lb", "1e9"], "--lb"),
+    ("extra", ["--phase", "0,-inf"], "--phase"),
+    ("extra", ["--phase", "1e9,0"], "phase"),
+    ("extra", ["--phase", "a,b"], "--phase"),
+    ("extra", ["--phase", "1,2,3"], "--phase"),
+    ("extra", ["--anchor-h", "0"], "--anchor-h"),
+    ("extra", ["--anchor-h", "nan"], "--anchor-h"),
+    ("extra", ["--size", "1000"], "size"),
+    ("extra", ["--size", "-4096"], "--size"),
+    ("extra", ["--solvent", "unobtainium"], "solvent"),
+    ("extra", ["--standard", "DSS", "--standard-nmol", "nan"], "--standard-nmol"),
+    ("extra", ["--standard", "DSS", "--volume-ul", "inf"], "--volume-ul"),
+    ("extra", ["--solvent-reference", "--deuteration-pct", "150", "--volume-ul", "35"], "--deuteration-pct"),
+    ("extra", ["--standard", "DSS", "--standard-nmol", "5", "--standard-range", "nan:1"], "--standard-range"),
+    ("extra", ["--save-spectrum", "/nonexistent-folder/x.npz"], "--save-spectrum"),
+)
+
+
+def judge_options(experiment: Path, args: list[str], fragment: str) -> tuple[str, str]:
+    """Run ``nmrcheck process EXPERIMENT ARGS`` in-process: ("ok", message) when refused with status 2 naming ``fragment``."""
+    from click.testing import CliRunner
+
+    from nmrcheck.cli import main
+
+    result = CliRunner().invoke(main, ["process", str(experiment), *args])
+    if result.exception is not None and not isinstance(result.exception, SystemExit):
+        return "traceback", repr(result.exception)
+    if "Traceback" in result.output:
+        return "traceback", result.output[-500:]
+    if result.exit_code == 0:
+        return "silently wrong", "accepted"
+    if result.exit_code != 2 or fragment not in result.output:
+        return "bad message", f"status {result.exit_code}: {result.output.strip()[:300]}"
+    return "ok", result.output.strip().splitlines()[-1]
+
+
+# ----------------------------------------------------------------------------- random faults
+
+_WEIRD = ("nan", "inf", "-inf", "1e308", "-1e308", "-1", "0", "", "<x", "<>", "(0..5)", "abc", "1e-320", "99999999999", "0x10", "1,5")
+
+
+def random_fault(rng: np.random.Generator) -> tuple[str, Callable[[Path], Path]]:
+    """A random fault for a Bruker folder or a JCAMP-DX file: a header value made weird, bytes flipped, or a cut."""
+    kind = rng.integers(4)
+
+    def target(p: Path) -> Path:
+        return p / "acqus" if p.is_dir() else p
+
+    def mutate(p: Path) -> Path:
+        f = target(p)
+        raw = bytearray(f.read_bytes())
+        if kind == 0:
+            lines = raw.split(b"\n")
+            numeric = [i for i, line in enumerate(lines) if re.match(rb"##[$.]?[\w ]+=\s*[-+0-9.]", line)]
+            i = numeric[rng.integers(len(numeric))]
+            key = lines[i].split(b"=", 1)[0]
+            lines[i] = key + b"= " + _WEIRD[rng.integers(len(_WEIRD))].encode()
+            raw = bytearray(b"\n".join(lines))
+        elif kind == 1:
+            for _ in range(int(rng.integers(1, 20))):
+                raw[int(rng.integers(len(raw)))] = int(rng.integers(256))
+        elif kind == 2:
+            raw = raw[: int(rng.integers(len(raw)))]
+        else:
+            data = p / "fid" if p.is_dir() else None
+            if data is not None:
+                b = bytearray(data.read_bytes())
+                start = int(rng.integers(len(b)))
+                b[start : start + 64] = bytes(rng.integers(0, 256, size=min(64, len(b) - start), dtype=np.uint8))
+                data.write_bytes(bytes(b))
+            else:
+                cut = int(rng.integers(len(raw)))
+                raw = raw[:cut] + raw[cut + int(rng.integers(1, 400)) :]
+        f.write_bytes(bytes(raw))
+        return p
+
+    names = {0: "header value made weird", 1: "bytes flipped", 2: "file cut", 3: "data block scrambled"}
+    return names[int(kind)], mutate
+
+
+def judge_random(path: Path) -> tuple[str, str]:
+    """A random fault must end refused in one line or processed; never a traceback or a hang."""
+    status, detail = run_case(path)
+    if status == "refused":
+        return ("ok", detail) if "\n" not in detail and detail.strip() else ("bad message", detail)
+    if status == "done":
+        return "ok", "processed"
+    return status, str(detail)

@@ -15,7 +15,7 @@ import sys
 
 import pytest
 from click.testing import CliRunner
-from fuzz_catalogue import set_param, write_synthetic_bruker
+from fuzz_catalogue import PROCESS_OPTIONS, judge_options, set_param, write_synthetic_bruker
 
 from nmrcheck.cli import main
 
@@ -34,40 +34,10 @@ def _one_line_error(result, status=2):
     return message
 
 
-# (arguments after "process EXP", text the message must hold). Click's usage errors print a
-# usage line too; they are checked for status 2 and no traceback, and name the option.
-BAD_PROCESS_OPTIONS = [
-    (["--lb", "nan"], "--lb"),
-    (["--lb", "inf"], "--lb"),
-    (["--lb", "-inf"], "--lb"),
-    (["--lb", "1e9"], "--lb"),
-    (["--phase", "nan,nan"], "--phase"),
-    (["--phase", "inf,0"], "--phase"),
-    (["--phase", "0,-inf"], "--phase"),
-    (["--phase", "1e9,0"], "phase"),
-    (["--phase", "a,b"], "--phase"),
-    (["--phase", "1,2,3"], "--phase"),
-    (["--anchor-h", "1000000000"], "--anchor-h"),
-    (["--anchor-h", "0"], "--anchor-h"),
-    (["--anchor-h", "nan"], "--anchor-h"),
-    (["--size", str(2**31)], "--size"),
-    (["--size", str(2**26)], "--size"),
-    (["--size", "1000"], "size"),
-    (["--size", "-4096"], "--size"),
-    (["--solvent", "unobtainium"], "solvent"),
-    (["--standard", "DSS", "--standard-nmol", "nan"], "--standard-nmol"),
-    (["--standard", "DSS", "--volume-ul", "inf"], "--volume-ul"),
-    (["--solvent-reference", "--deuteration-pct", "150", "--volume-ul", "35"], "--deuteration-pct"),
-]
-
-
-@pytest.mark.parametrize("args, fragment", BAD_PROCESS_OPTIONS, ids=[" ".join(a) for a, _ in BAD_PROCESS_OPTIONS])
-def test_bad_process_options(experiment, args, fragment):
-    result = CliRunner().invoke(main, ["process", str(experiment), *args])
-    assert result.exit_code == 2, result.output
-    assert result.exception is None or isinstance(result.exception, SystemExit), repr(result.exception)
-    assert "Traceback" not in result.output
-    assert fragment in result.output
+@pytest.mark.parametrize("kind, args, fragment", PROCESS_OPTIONS, ids=[f"{k}: {' '.join(a)}" for k, a, _ in PROCESS_OPTIONS])
+def test_bad_process_options(experiment, kind, args, fragment):
+    verdict, detail = judge_options(experiment, args, fragment)
+    assert verdict == "ok", f"{kind}: {detail}"
 
 
 @pytest.mark.parametrize("option", ["--plot", "--save-spectrum"])

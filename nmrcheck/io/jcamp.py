@@ -25,6 +25,9 @@ __all__ = ["JcampBlock", "JcampTable", "read_blocks", "decode_table", "label_key
 
 #: Largest JCAMP-DX file read (a 1H FID of 64 k points is 0.3-3 MB).
 MAX_JCAMP_BYTES = 256 * 1024 * 1024
+#: Longest line accepted: the standard keeps lines to 80 characters; long audit-trail or title
+#: lines are tolerated far beyond that, a megabyte-long "line" is not text of this format.
+MAX_LINE_CHARS = 100_000
 
 _TABLE_LABELS = {"XYDATA", "DATATABLE", "XYPOINTS", "PEAKTABLE"}
 
@@ -82,10 +85,10 @@ def read_blocks(path: str | os.PathLike) -> list[JcampBlock]:
     text = raw.decode("utf-8", errors="replace")
     if text.startswith("\ufeff"):
         text = text[1:]
-    return parse_blocks(text)
+    return parse_blocks(text, str(p))
 
 
-def parse_blocks(text: str) -> list[JcampBlock]:
+def parse_blocks(text: str, source: str = "JCAMP-DX text") -> list[JcampBlock]:
     """Blocks of JCAMP-DX ``text`` (see :func:`read_blocks`)."""
     top: list[JcampBlock] = []
     stack: list[JcampBlock] = []
@@ -93,6 +96,8 @@ def parse_blocks(text: str) -> list[JcampBlock]:
     table: JcampTable | None = None
     page: str | None = None
     for lineno, line in enumerate(text.splitlines(), start=1):
+        if len(line) > MAX_LINE_CHARS:
+            raise InputFileError(source, f"line {lineno} is {len(line)} characters long; JCAMP-DX lines hold 80 (not a JCAMP-DX file, or corrupt)")
         body = line.split("$$", 1)[0]
         stripped = body.strip()
         if not stripped:

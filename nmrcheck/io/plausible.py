@@ -40,6 +40,10 @@ MAX_FID_VALUES = 4 * 1024 * 1024
 MAX_SPECTRUM_POINTS = 4 * 1024 * 1024
 #: Largest digital-filter delay, points (Bruker GRPDLY is 60-80 points in practice).
 MAX_GROUP_DELAY_POINTS = 1000.0
+#: Largest magnitude of a data point: digitisers deliver at most 2^31 per scan and instrument
+#: scaling a few powers of two more; 1e30 is far beyond any recording and far below the values
+#: whose squares overflow in processing.
+MAX_POINT_MAGNITUDE = 1e30
 
 
 def _as_float(value: Any) -> float | None:
@@ -91,6 +95,9 @@ def check_points(source: str, data: np.ndarray, what: str = "the data") -> None:
         raise InputFileError(source, f"{what} holds {bad} value(s) that are not finite numbers (NaN or infinity)")
     if not np.any(data):
         raise InputFileError(source, f"{what} holds only zeros")
+    largest = float(np.max(np.abs(data)))
+    if largest > MAX_POINT_MAGNITUDE:
+        raise InputFileError(source, f"{what} holds a value of magnitude {largest:.3g}, beyond any recording (corrupt data)")
     flat = data.ravel()
     if np.all(flat == flat[0]):
         raise InputFileError(source, f"{what} holds one value repeated at every point ({flat[0]:g}); no signal was recorded")

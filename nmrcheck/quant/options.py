@@ -6,6 +6,8 @@ and its go/no-go here, so the three agree and a wrong combination is one :class:
 
 from __future__ import annotations
 
+import math
+
 from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Any
@@ -37,6 +39,8 @@ def parse_ppm_range(text: str | tuple[float, float] | None, option: str) -> tupl
         a, b = (float(v) for v in text.replace(",", ":").split(":"))
     except ValueError:
         raise ParameterError(f"{option}: expected START:END in ppm, got {text!r}") from None
+    if not all(math.isfinite(v) and -1000.0 <= v <= 1000.0 for v in (a, b)):
+        raise ParameterError(f"{option}: {text!r} must be two finite shifts within -1000..1000 ppm")
     return (a, b)
 
 
