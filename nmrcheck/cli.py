@@ -278,6 +278,8 @@ def plate_group() -> None:
 @click.option("--library", "library", type=click.Path(exists=True, dir_okay=False), default=None, help="Known compounds (CSV/SMILES/SD file, or an index made from one): matches become candidates.")
 @click.option("--genus", default=None, help="Genus of the extract's organism (ranks known compounds).")
 @click.option("--family", default=None, help="Family of the extract's organism (ranks known compounds).")
+@click.option("--retention-calibration", "retention_calibration", type=click.Path(exists=True, dir_okay=False), default=None,
+              help="Reference compounds on the same gradient (CSV: rt_min, logp or smiles) for the retention check [default: fit on the plate].")
 @click.option("--scheduler", default=None, help="Dask distributed scheduler address (needs the 'dask' extra) instead of local processes.")
 @click.option("--no-report", is_flag=True, help="Do not write the HTML report and exports at the end.")
 @click.option("--assay", "assay_path", type=click.Path(dir_okay=False), default=None, help="Bioassay readouts per well (CSV: well,value[,unit,threshold,hit_when,assay]) to join in the report.")
@@ -285,7 +287,7 @@ def plate_group() -> None:
 @click.option("--timetable", type=click.Path(dir_okay=False), default=None, help="Fraction-collection timetable (CSV: well, start_min, end_min) for --lcms.")
 @click.option("--collector-delay-min", "collector_delay_min", type=Number(0, 100), default=0.0, show_default=True, help="Time from the MS detector to the fraction collector, minutes.")
 @user_errors
-def plate_run(manifest, out_dir, workers, watch, time_limit_h, poll_s, redo, layout, lb_hz, mass_tolerance_ppm, library, genus, family, scheduler, no_report, assay_path, lcms_run, timetable, collector_delay_min) -> None:
+def plate_run(manifest, out_dir, workers, watch, time_limit_h, poll_s, redo, layout, lb_hz, mass_tolerance_ppm, library, genus, family, retention_calibration, scheduler, no_report, assay_path, lcms_run, timetable, collector_delay_min) -> None:
     """Screen every well of MANIFEST into --out; rerunning resumes. Exit 0 when the run completed."""
     from dataclasses import replace
 
@@ -314,6 +316,10 @@ def plate_run(manifest, out_dir, workers, watch, time_limit_h, poll_s, redo, lay
         index = open_library(library, cache_dir=Path(out_dir) / "library")
         click.echo(f"known compounds: {index.entries} in {index.database}" + (f" ({index.skipped} rows left out)" if index.skipped else ""), err=True)
         options = replace(options, library=index.database, genus=genus, family=family)
+    if retention_calibration:
+        from pathlib import Path
+
+        options = replace(options, retention_calibration=str(Path(retention_calibration).resolve()))
     executor = client = None
     if scheduler:
         try:

@@ -200,6 +200,10 @@ def run_plate(
             raise
         if own_executor:
             pool.shutdown(wait=True)
+        # Plate-level step: the retention fit needs every well's result.
+        from nmrcheck.plate.retention_pass import retention_pass
+
+        retention_pass(store, run_id, {s.well for s in manifest.wells}, calibration=options.retention_calibration)
         current = store.current(with_trace=False)
         hashes = {s.well: well_options_hash(s, options) for s in manifest.wells}
         have = {w for w, r in current.items() if w in hashes}

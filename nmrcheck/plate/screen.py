@@ -57,6 +57,8 @@ class ScreenOptions:
     genus: str | None = None
     """The extract's organism: genus and family, for ranking known compounds."""
     family: str | None = None
+    retention_calibration: str | None = None
+    """Retention calibration file (reference compounds' rt_min and logP or SMILES); None: fit on the plate."""
 
     def __post_init__(self) -> None:
         if not 0 < self.mass_tolerance_ppm <= 100:
