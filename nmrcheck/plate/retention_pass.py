@@ -105,9 +105,9 @@ def apply_retention(results: dict[str, WellResult], *, calibration: str | None =
 
 def retention_pass(store, run_id: str, wells: set[str], *, calibration: str | None = None) -> None:
     """Add the retention check to the stored results of ``wells`` (a plate-level step after screening)."""
-    current = {w: r for w, r in store.current().items() if w in wells}
+    current = {w: r for w, r in store.current(with_trace=False).items() if w in wells}
     model, changed = apply_retention(current, calibration=calibration)
     for result in changed.values():
-        store.save(run_id, result)
+        store.amend(result)
     if model is not None:
         log.info("retention model %s", model.describe())

@@ -148,6 +148,21 @@ class ResultsStore:
                 (result.well, result.options_hash, run_id, now, cur.lastrowid, result.status, result.verdict, payload, blob),
             )
 
+    def amend(self, result: WellResult) -> None:
+        """Replace the stored record of a well's current result in place (no new history entry).
+
+        For plate-level steps that add to results already recorded (the retention check),
+        so that resuming and history still count one result per screening.
+        """
+        payload = result.to_json()
+        with self._transaction():
+            key = (result.well, result.options_hash)
+            row = self._conn.execute("SELECT seq FROM results WHERE well = ? AND options_hash = ?", key).fetchone()
+            if row is None:
+                raise KeyError(result.well)
+            self._conn.execute("UPDATE results SET verdict = ?, result_json = ? WHERE well = ? AND options_hash = ?", (result.verdict, payload, *key))
+            self._conn.execute("UPDATE history SET verdict = ?, result_json = ? WHERE seq = ?", (result.verdict, payload, row[0]))
+
     def finished(self) -> set[tuple[str, str]]:
         """(well, options hash) pairs that have a current result."""
         return {(w, h) for w, h in self._conn.execute("SELECT well, options_hash FROM results")}

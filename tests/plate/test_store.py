@@ -44,3 +44,17 @@ def test_database_uses_write_ahead_logging(tmp_path):
     ResultsStore(tmp_path).close()
     mode = sqlite3.connect(tmp_path / "results.sqlite").execute("PRAGMA journal_mode").fetchone()[0]
     assert mode == "wal"
+
+
+def test_amend_replaces_the_current_record_without_new_history(tmp_path):
+    import dataclasses
+
+    with ResultsStore(tmp_path) as store:
+        run = store.start_run(manifest="m.csv", options={}, software_version="t")
+        store.save(run, _result("A1"))
+        amended = dataclasses.replace(_result("A1"), notes=("retention: added later",))
+        store.amend(amended)
+        assert store.count_history() == 1
+        current = store.current()["A1"]
+        assert current.notes == ("retention: added later",) and current.trace is not None
+        assert store.history("A1")[0]["result"]["notes"] == ["retention: added later"]
