@@ -427,7 +427,13 @@ def _well_section(result: WellResult, line: WellLine, index: int, history_len: i
     if line.known:
         pairs.append(("Known compounds", escape(line.known)))
     if line.related:
-        pairs.append(("Related wells (MS/MS)", " ".join(f'<a href="#well-{escape(w)}">{escape(w)}</a>' for w in line.related)))
+        pairs.append(("Related wells (MS/MS)", " ".join(f'<a href="#well-{escape(w)}">{escape(w)}</a>' for w in line.related)
+                      + (f' <span class="muted">({escape(line.related_note)})</span>' if line.related_note else "")))
+    lcms = result.lcms if isinstance(getattr(result, "lcms", None), Mapping) else None
+    if lcms and lcms.get("features") is not None:
+        feats = lcms.get("features") or []
+        top = ", ".join(f"M {float(f['neutral_mass']):.4f} ({100 * float(f.get('share') or 0):.0f} %)" for f in feats[:3] if f.get("neutral_mass") is not None)
+        pairs.append(("LC-MS", escape(f"{len(feats)} feature(s) in the collection window, {lcms.get('major_features', '?')} major" + (f": {top}" if top else ""))))
     if line.activity is not None:
         pairs.append(("Bioassay", _activity_cell(line)))
     if proc:

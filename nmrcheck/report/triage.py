@@ -103,6 +103,8 @@ class WellLine:
     activity: AssayReadout | None = None
     related: tuple[str, ...] = ()
     """Wells whose MS/MS spectra group with this one."""
+    related_note: str = ""
+    """What the MS/MS groups say ('... share fragments: probably the same scaffold')."""
     rank_key: tuple = field(default=(), compare=False)
 
 
@@ -192,22 +194,26 @@ def _known(result: WellResult) -> str:
     return str(k)
 
 
-def _related(result: WellResult) -> tuple[str, ...]:
-    """Wells whose MS/MS spectra group with this one (the LC-MS stage's groups, in whichever shape it stores them)."""
+def _related(result: WellResult) -> tuple[tuple[str, ...], str]:
+    """(wells whose MS/MS spectra group with this one, what the groups say), from the LC-MS record or a newer field."""
     found: list[str] = []
-    names = {f for f in result.as_dict()} | {"related_wells", "msms_group", "msms_groups", "ms_groups", "spectral_groups"}
-    for name in sorted(names):
-        if not any(k in name for k in ("related", "msms_group", "ms_group", "spectral_group")):
-            continue
-        value = getattr(result, name, None)
+    notes: list[str] = []
+    sources = [((result.lcms or {}) if isinstance(getattr(result, "lcms", None), Mapping) else {}).get("related_wells")]
+    sources += [getattr(result, name, None) for name in ("related_wells", "msms_group", "msms_groups", "ms_groups", "spectral_groups")]
+    for value in sources:
         if not value:
             continue
         groups = value if isinstance(value, (list, tuple)) and value and isinstance(value[0], Mapping) else [value]
         for g in groups:
-            wells = g.get("wells") if isinstance(g, Mapping) else g
-            if isinstance(wells, (list, tuple)) and (result.well in [str(w) for w in wells] or not isinstance(g, Mapping) or len(groups) == 1):
-                found += [str(w) for w in wells if str(w) != result.well]
-    return tuple(dict.fromkeys(found))
+            wells = g.get("others") or g.get("wells") if isinstance(g, Mapping) else g
+            if not isinstance(wells, (list, tuple)):
+                continue
+            if isinstance(g, Mapping) and g.get("wells") and result.well not in [str(w) for w in g["wells"]] and not g.get("others") and len(groups) > 1:
+                continue
+            found += [str(w) for w in wells if str(w) != result.well]
+            if isinstance(g, Mapping) and g.get("summary"):
+                notes.append(str(g["summary"]))
+    return tuple(dict.fromkeys(found)), "; ".join(dict.fromkeys(notes))
 
 
 def format_amount(amount: Mapping[str, Any] | None) -> tuple[str, float | None, str]:
@@ -308,6 +314,7 @@ def well_line(result: WellResult, activity: AssayReadout | None = None) -> WellL
     count, count_detail, ambiguous = _count(result, check)
     next_text, next_detail, decision = _next_step(result)
     known = _known(result)
+    related, related_note = _related(result)
     verdict = result.verdict
     concern = ""
     reason = ""
@@ -329,7 +336,7 @@ def well_line(result: WellResult, activity: AssayReadout | None = None) -> WellL
         reason = purity
     elif ambiguous:
         concern = "ambiguous count"
-        reason = count_detail
+        reason = f"the integrals fit {count.removeprefix('ambiguous: ')} equally well"
     elif verdict in ("doubtful", "undecided"):
         concern = verdict
         reason = _first_problem(check, ("fail", "warn")) or next(iter((check or {}).get("reasons") or []), "")
@@ -367,7 +374,8 @@ def well_line(result: WellResult, activity: AssayReadout | None = None) -> WellL
         reason_detail=display_units(clean_citation(reason)),
         known=known,
         activity=activity,
-        related=_related(result),
+        related=related,
+        related_note=related_note,
         rank_key=rank_key,
     )
 

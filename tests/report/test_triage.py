@@ -80,8 +80,11 @@ def test_display_units():
 def test_related_wells_from_msms_groups():
     r = _result(verdict="consistent")
     # As the LC-MS stage writes a group (nmrcheck.ms.msms.SpectralGroup.as_dict).
-    object.__setattr__(r, "msms_groups", [{"wells": ["A1", "B4", "C2"], "relation": "related", "summary": "x"}, {"wells": ["D1", "D2"]}])
-    assert well_line(r).related == ("B4", "C2")
+    # As the plate stores the LC-MS groups (nmrcheck.plate.lcms, WellResult.lcms['related_wells']).
+    r = _result(verdict="consistent", lcms={"features": [], "related_wells": [
+        {"wells": ["A1", "B4", "C2"], "others": ["B4", "C2"], "relation": "related", "summary": "wells A1, B4 and C2 share fragments"}]})
+    line = well_line(r)
+    assert line.related == ("B4", "C2") and "share fragments" in line.related_note
 
 
 def test_known_compound_search_shown():
