@@ -1,7 +1,7 @@
 """Count the bad inputs of the fuzz catalogue per failure class and outcome (no timing; a tally, not a test).
 
 Applies every fault in tests/fuzz_catalogue.py to the synthetic recordings (a Bruker folder,
-a JCAMP-DX FID with the standard labels only and one with vendor labels) and, when
+a Varian folder, a JCAMP-DX FID with the standard labels only and one with vendor labels) and, when
 NMRCHECK_REFDATA is set, to copies of shared real recordings; tries the bad options of
 ``nmrcheck process``. Prints, per class the plate issue names (traceback, hang, memory,
 silently wrong; "tolerance" for faults that must be accepted; "extra" for option cases
@@ -40,6 +40,7 @@ def main() -> None:
             "synthetic Bruker": (fc.write_synthetic_bruker(root / "src" / "bruker"), fc.BRUKER, False),
             "synthetic JCAMP-DX (standard labels)": (fc.write_synthetic_jcamp(root / "src" / "std.dx"), fc.JCAMP, False),
             "synthetic JCAMP-DX (vendor labels)": (fc.write_synthetic_jcamp(root / "src" / "vendor.dx", vendor_labels=True), fc.JCAMP + fc.JCAMP_VENDOR, False),
+            "synthetic Varian": (fc.write_synthetic_varian(root / "src" / "varian.fid"), fc.VARIAN, False),
         }
         refdata = os.environ.get("NMRCHECK_REFDATA")
         if refdata and Path(refdata).is_dir():

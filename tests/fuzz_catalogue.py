@@ -48,6 +48,31 @@ def write_synthetic_jcamp(path: Path, *, vendor_labels: bool = False) -> Path:
     return path
 
 
+def write_synthetic_varian(directory: Path, points: int = 4000) -> Path:
+    """A Varian/Agilent folder (procpar + fid) written with nmrglue's own writer from the synthetic FID."""
+    import copy
+
+    import nmrglue as ng
+
+    fid = synthetic_fid(points, group_delay=0.0)
+    acq = fid.acquisition
+    udic = ng.fileio.fileiobase.create_blank_udic(1)
+    udic[0].update(size=points, complex=True, sw=acq.sweep_width_hz, obs=acq.spectrometer_mhz, car=0.0, label="H1", time=True, freq=False)
+    dic = ng.varian.create_dic(udic)
+    template = dic["procpar"]["np"]
+    for name, value, text in [("sfrq", acq.spectrometer_mhz, False), ("sw", acq.sweep_width_hz, False), ("tof", acq.carrier_ppm * acq.spectrometer_mhz, False),
+                              ("nt", 16, False), ("gain", 30, False), ("pw", 9.5, False), ("temp", 25.0, False), ("d1", 2.0, False),
+                              ("tn", "H1", True), ("solvent", "CDCl3", True), ("seqfil", "s2pul", True)]:
+        entry = copy.deepcopy(template)
+        entry.update(name=name, values=[str(value)])
+        if text:
+            entry.update(basictype="2", subtype="1")
+        dic["procpar"][name] = entry
+    # Varian's quadrature sense is the opposite of the synthetic (Bruker-like) FID's; the reader conjugates.
+    ng.varian.write(str(directory), dic, np.conj(fid.data).astype(np.complex64), overwrite=True)
+    return directory
+
+
 # ----------------------------------------------------------------------------- mutations
 
 
@@ -265,6 +290,54 @@ PDATA: tuple[BadInput, ...] = (
     BadInput("SW_p=-1", "traceback", "refuse", _pdata(_param("SW_p", "-1", "procs")), "SW_p"),
     BadInput("procs cut inside <...>", "hang", "refuse", _pdata(lambda d: (d / "procs").write_bytes((d / "procs").read_bytes().split(b"##$AUNMP= <")[0] + b"##$AUNMP= <pro")), "AUNMP"),
     BadInput("1r of zeros", "traceback", "refuse", _pdata(_file_bytes("1r", lambda r: bytes(len(r)))), "zeros"),
+)
+
+
+def _procpar_value(name: str, value: str):
+    def mutate(d: Path) -> Path:
+        p = d / "procpar"
+        text = p.read_bytes().decode("latin-1")
+        new, n = re.subn(rf"^({re.escape(name)} [^\n]*\n)\d+ [^\n]*", lambda m: m.group(1) + value, text, count=1, flags=re.MULTILINE)
+        assert n == 1, name
+        p.write_bytes(new.encode("latin-1"))
+        return d
+
+    return mutate
+
+
+def _procpar_bytes(transform: Callable[[bytes], bytes]):
+    def mutate(d: Path) -> Path:
+        (d / "procpar").write_bytes(transform((d / "procpar").read_bytes()))
+        return d
+
+    return mutate
+
+
+def _varian_header(index: int, value: int):
+    """Set one of the six 32-bit fields of the Varian fid file header (0 blocks, 1 traces, 2 values, 3 bytes per value ...)."""
+
+    def transform(raw: bytes) -> bytes:
+        return raw[: 4 * index] + int(value).to_bytes(4, "big", signed=True) + raw[4 * index + 4 :]
+
+    return _fid_bytes(transform)
+
+
+# Faults of a Varian/Agilent folder (procpar + fid).
+VARIAN: tuple[BadInput, ...] = (
+    BadInput("sfrq=nan", "traceback", "refuse", _procpar_value("sfrq", "1 nan"), "sfrq"),
+    BadInput("sw=-5000", "traceback", "refuse", _procpar_value("sw", "1 -5000"), "sw"),
+    BadInput("sw=1e12", "silently wrong", "refuse", _procpar_value("sw", "1 1e12"), "sw"),
+    BadInput("procpar cut inside a string", "hang", "refuse", _procpar_bytes(lambda r: r[: r.index(b'"s2pul') + 3]), "string|ends"),
+    BadInput("procpar announces 10^9 values", "memory", "refuse", _procpar_value("seqfil", '1000000000 "s2pul"'), "values"),
+    BadInput("procpar empty", "traceback", "refuse", _procpar_bytes(lambda r: b""), "no parameters"),
+    BadInput("procpar is a FIFO", "hang", "refuse", _replace_with("procpar", "fifo"), "FIFO"),
+    BadInput("fid of zero bytes", "traceback", "refuse", _fid_bytes(lambda r: b""), "header"),
+    BadInput("fid cut to a third", "traceback", "refuse", _fid_bytes(lambda r: r[: len(r) // 3]), "truncated"),
+    BadInput("1000 junk bytes appended", "silently wrong", "refuse", _fid_bytes(lambda r: r + os.urandom(1000)), "junk"),
+    BadInput("header announces 10^9 values", "memory", "refuse", _varian_header(2, 10**9), "header"),
+    BadInput("header announces 7 blocks", "silently wrong", "refuse", _varian_header(0, 7), "FIDs|header"),
+    BadInput("fid data all zeros", "traceback", "refuse", _fid_bytes(lambda r: r[:60] + bytes(len(r) - 60)), "only zeros"),
+    BadInput("non-UTF-8 byte in a string value", "tolerance", "accept", _procpar_bytes(lambda r: r.replace(b'"s2pul"', b'"s2pul\xe4"'))),
 )
 
 
@@ -537,17 +610,22 @@ def random_fault(rng: np.random.Generator) -> tuple[str, Callable[[Path], Path]]
     kind = rng.integers(4)
 
     def target(p: Path) -> Path:
-        return p / "acqus" if p.is_dir() else p
+        if p.is_dir():
+            return p / "acqus" if (p / "acqus").exists() else p / "procpar"
+        return p
 
     def mutate(p: Path) -> Path:
         f = target(p)
         raw = bytearray(f.read_bytes())
         if kind == 0:
             lines = raw.split(b"\n")
-            numeric = [i for i, line in enumerate(lines) if re.match(rb"##[$.]?[\w ]+=\s*[-+0-9.]", line)]
+            numeric = [i for i, line in enumerate(lines) if re.match(rb"##[$.]?[\w ]+=\s*[-+0-9.]|\d+ [-+0-9.]", line)]
             i = numeric[rng.integers(len(numeric))]
-            key = lines[i].split(b"=", 1)[0]
-            lines[i] = key + b"= " + _WEIRD[rng.integers(len(_WEIRD))].encode()
+            weird = _WEIRD[rng.integers(len(_WEIRD))].encode()
+            if lines[i].startswith(b"##"):
+                lines[i] = lines[i].split(b"=", 1)[0] + b"= " + weird
+            else:  # a procpar value line: count, then the value
+                lines[i] = lines[i].split(b" ", 1)[0] + b" " + weird
             raw = bytearray(b"\n".join(lines))
         elif kind == 1:
             for _ in range(int(rng.integers(1, 20))):

@@ -2,9 +2,9 @@
 
 This is the only module that knows vendor parameter names; it converts them once
 into :class:`~nmrcheck.io.records.Fid` or :class:`~nmrcheck.io.records.SpectrumFile`.
-Bruker parameter files and JCAMP-DX files are parsed here with bounded effort
-(:mod:`nmrcheck.io.parameters`, :mod:`nmrcheck.io.jcamp`), binary data with numpy, Varian
-data through nmrglue. Every numeric parameter is checked for being finite and plausible
+Bruker parameter files, Varian ``procpar`` and JCAMP-DX files are parsed with bounded effort
+(:mod:`nmrcheck.io.parameters`, :mod:`nmrcheck.io.varian`, :mod:`nmrcheck.io.jcamp`), binary
+data with numpy; nmrglue supplies the Bruker digital-filter delay table. Every numeric parameter is checked for being finite and plausible
 (:mod:`nmrcheck.io.plausible`) and every data set for holding a signal at all; a refusal
 is one line naming the file and the field.
 """
@@ -15,7 +15,6 @@ import functools
 import logging
 import os
 import re
-import warnings
 from pathlib import Path
 from typing import Any
 
@@ -364,24 +363,12 @@ def _read_bruker_fid(d: Path) -> Fid:
 
 
 def _read_varian_fid(d: Path) -> Fid:
-    ng = _ng()
-    for name in ("fid", "procpar"):
-        regular_file(d / name, name)
+    from nmrcheck.io.varian import read_procpar, read_varian_fid_points
+
     source = str(d / "procpar")
     notes: list[str] = []
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
-        try:
-            dic, data = ng.varian.read(str(d))
-        except (OSError, ValueError, KeyError, IndexError, TypeError, EOFError, AttributeError, ZeroDivisionError, OverflowError, MemoryError) as exc:
-            msg = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
-            raise InputFileError(d, f"Varian data set is corrupt or truncated ({msg})") from None
-    data = np.asarray(data)
-    if data.ndim > 1:
-        if data.shape[0] != 1:
-            raise InputFileError(d, f"holds {data.shape[0]} FIDs; nmrcheck reads 1D FIDs")
-        data = data[0]
-    pp = dic["procpar"]
+    pp = read_procpar(d / "procpar")
+    data = read_varian_fid_points(d / "fid")
 
     def val(name, default=None):
         entry = pp.get(name)
@@ -397,6 +384,11 @@ def _read_varian_fid(d: Path) -> Fid:
     if not lo_sw <= sw / sfrq <= hi_sw:
         raise InputFileError(source, f"sw={sw:g} Hz is {sw / sfrq:.3g} ppm at {sfrq:g} MHz, outside the plausible {lo_sw:g}..{hi_sw:g} ppm")
     tof = pl.number(source, "tof", val("tof", 0.0), lo=-pl.MAX_CARRIER_OFFSET_PPM * hi_mhz, hi=pl.MAX_CARRIER_OFFSET_PPM * hi_mhz, unit="Hz", what="carrier offset")
+    # The axis is built from the base frequency: the spectrometer's reference frequency (reffrq)
+    # when recorded, otherwise the transmitter frequency less its offset.
+    base = pl.optional_number(_num(val("reffrq")), lo=lo_mhz, hi=hi_mhz)
+    if base is None or abs(sfrq - base) / base > pl.MAX_CARRIER_OFFSET_PPM * 1e-6:
+        base = sfrq - tof * 1e-6
     tn = _text(val("tn")) or "H1"
     np_points = pl.optional_number(_num(val("np")), lo=2, hi=pl.MAX_FID_VALUES)
     flat = {"nt": val("nt"), "gain": val("gain"), "pw": val("pw"), "temp": val("temp"), "d1": val("d1")}
@@ -407,7 +399,7 @@ def _read_varian_fid(d: Path) -> Fid:
         spectrometer_mhz=sfrq,
         sweep_width_hz=sw,
         carrier_ppm=tof / sfrq,
-        base_mhz=None,
+        base_mhz=base,
         solvent=_text(val("solvent")),
         scans=int(scans) if scans is not None else None,
         receiver_gain=_optional(flat, "gain", source, notes, lo=-1e3, hi=1e7, what="receiver gain"),
@@ -419,7 +411,6 @@ def _read_varian_fid(d: Path) -> Fid:
         title=_text(val("samplename")) or None,
     )
     _check_proton(d, acq)
-    data = data.astype(np.complex128)
     pl.check_points(str(d / "fid"), data, "the fid")
     # Varian/Agilent record the quadrature channel with the opposite sense to Bruker
     # (nmrglue's examples reverse Bruker spectra after the transform but not Varian ones).

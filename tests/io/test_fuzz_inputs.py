@@ -14,7 +14,7 @@ import os
 
 import pytest
 from conftest import _refdata_dir
-from fuzz_catalogue import BRUKER, JCAMP, JCAMP_VENDOR, PDATA, copy_recording, judge, judge_random, processed_cleanly, random_fault, write_synthetic_bruker, write_synthetic_jcamp
+from fuzz_catalogue import BRUKER, JCAMP, JCAMP_VENDOR, PDATA, VARIAN, copy_recording, judge, judge_random, processed_cleanly, random_fault, write_synthetic_bruker, write_synthetic_jcamp, write_synthetic_varian
 
 
 def _ids(case):
@@ -29,6 +29,7 @@ def synthetic(tmp_path_factory):
         "bruker": write_synthetic_bruker(base / "bruker" / "1"),
         "jcamp-standard": write_synthetic_jcamp(base / "standard.dx"),
         "jcamp-vendor": write_synthetic_jcamp(base / "vendor.dx", vendor_labels=True),
+        "varian": write_synthetic_varian(base / "varian.fid"),
     }
     return paths, processed_cleanly(paths)
 
@@ -43,6 +44,12 @@ def _check(case, source, clean, tmp_path):
 def test_synthetic_bruker(case, synthetic, tmp_path):
     paths, clean = synthetic
     _check(case, paths["bruker"], clean["bruker"], tmp_path)
+
+
+@pytest.mark.parametrize("case", VARIAN, ids=_ids)
+def test_synthetic_varian(case, synthetic, tmp_path):
+    paths, clean = synthetic
+    _check(case, paths["varian"], clean["varian"], tmp_path)
 
 
 @pytest.mark.parametrize("case", JCAMP, ids=_ids)
@@ -108,7 +115,7 @@ _START = __import__("time").time()
 _RANDOM_CASES = 20
 
 
-@pytest.mark.parametrize("source", ["bruker", "jcamp-standard", "jcamp-vendor"])
+@pytest.mark.parametrize("source", ["bruker", "jcamp-standard", "jcamp-vendor", "varian"])
 def test_random_faults_synthetic(source, synthetic, tmp_path):
     """Random faults (fixed seeds) end refused in one line or processed, never as a traceback or a hang."""
     import numpy as np
