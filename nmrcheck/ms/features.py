@@ -72,7 +72,7 @@ class FeatureOptions:
     min_correlation: float = 0.8
     """Co-elution: the extracted-ion chromatograms correlate at least this well (Pearson)."""
     max_apex_shift_scans: int = 2
-    """Co-elution: apexes at most this many survey scans apart."""
+    """Co-elution: peak centres at most this many survey scans apart (or a tenth of the narrower peak's width)."""
     max_charge: int = 3
     margin_min: float = 0.5
     """Context read on each side of the well's window so that peaks cut by it keep their shape."""
@@ -193,13 +193,14 @@ class LcmsFeature:
     neutral_mass: float
     """Monoisotopic mass of M, u (intensity-weighted over its ions)."""
     polarity: str
+    """'positive', 'negative', or 'both' for a compound seen in both polarities of a switching run."""
     ions: tuple[FeatureIon, ...]
-    """Most intense first."""
+    """Most intense first (with 'both': the polarity of the larger share first)."""
     rt_min: float
     rt_start_min: float
     rt_end_min: float
     share: float
-    """Fraction of the well's ion current (its polarity) carried by this feature's ions."""
+    """Fraction of the well's ion current (of its polarity; with 'both', the larger fraction) carried by its ions."""
     species_assumed: bool = False
     """True for a lone ion whose species is the usual one by assumption, not by a partner ion."""
     ms2: tuple[Ms2Spectrum, ...] = ()
@@ -289,10 +290,12 @@ class _Peak:
     height: float
     rt_apex: float
     used: bool = False
+    centre: float = 0.0
 
 
-def _mass_traces(scans: list[Scan], tolerance_ppm: float, min_scans: int) -> list[tuple[np.ndarray, np.ndarray]]:
-    """(intensity per scan, mean m/z per scan) of each mass trace seen in at least ``min_scans`` scans."""
+def _mass_traces(scans: list[Scan], tolerance_ppm: float, min_scans: int, in_window: np.ndarray, min_window_sum: float) -> list[tuple[np.ndarray, np.ndarray]]:
+    """(intensity per scan, mean m/z per scan) of each mass trace seen in at least ``min_scans`` scans
+    and carrying at least ``min_window_sum`` of ion current inside the well's window."""
     n = len(scans)
     counts = np.fromiter((s.mz.size for s in scans), dtype=np.int64, count=n)
     if counts.sum() == 0:
@@ -305,12 +308,14 @@ def _mass_traces(scans: list[Scan], tolerance_ppm: float, min_scans: int) -> lis
     breaks = np.nonzero(np.diff(mz) > mz[:-1] * tolerance_ppm * 1e-6)[0] + 1
     starts = np.concatenate([[0], breaks])
     ends = np.concatenate([breaks, [mz.size]])
+    in_sums = np.add.reduceat(inten * in_window[idx], starts)
+    keep = (ends - starts >= min_scans) & (in_sums >= min_window_sum) & (in_sums > 0)
     out = []
-    for a, b in zip(starts[ends - starts >= min_scans], ends[ends - starts >= min_scans]):
+    for a, b in zip(starts[keep], ends[keep]):
         sidx = idx[a:b]
-        if np.unique(sidx).size < min_scans:
-            continue
         xic = np.bincount(sidx, weights=inten[a:b], minlength=n)
+        if np.count_nonzero(xic) < min_scans:
+            continue
         wmz = np.bincount(sidx, weights=inten[a:b] * mz[a:b], minlength=n)
         mean_mz = np.divide(wmz, xic, out=np.zeros(n), where=xic > 0)
         out.append((xic, mean_mz))
@@ -324,13 +329,12 @@ def _pick_peaks(xic: np.ndarray, mean_mz: np.ndarray, rts: np.ndarray, min_scans
     n = s.size
     taken = np.zeros(n, dtype=bool)
     peaks = []
-    for apex in np.argsort(-s, kind="stable"):
+    left = np.concatenate([[-1.0], s[:-1]])
+    right = np.concatenate([s[1:], [-1.0]])
+    maxima = np.nonzero((s > 0) & (s >= left) & (s >= right))[0]
+    for apex in maxima[np.argsort(-s[maxima], kind="stable")]:
         top = s[apex]
-        if top <= 0:
-            break
         if taken[apex]:
-            continue
-        if (apex > 0 and s[apex - 1] > top) or (apex < n - 1 and s[apex + 1] > top):
             continue
         lo = apex
         while lo > 0 and s[lo - 1] > 0 and not taken[lo - 1] and not (s[lo - 1] > s[lo] and s[lo] < 0.5 * top):
@@ -352,18 +356,34 @@ def _pick_peaks(xic: np.ndarray, mean_mz: np.ndarray, rts: np.ndarray, min_scans
             if den < 0:
                 d = 0.5 * (y0 - y2) / den
                 rt += d * float(rts[apex + 1] - rts[apex - 1]) / 2.0
-        peaks.append(_Peak(mz, int(apex), int(lo), int(hi), xic, float(top), rt))
+        peak = _Peak(mz, int(apex), int(lo), int(hi), xic, float(top), rt)
+        peak.centre = _centre(peak)
+        peaks.append(peak)
     return peaks
 
 
+def _centre(p: _Peak) -> float:
+    """Intensity-weighted centre (scan index) of the points above half the peak's maximum: steadier than the apex
+    on a flat-topped peak sampled by many scans."""
+    seg = p.xic[p.lo : p.hi + 1]
+    top = seg >= 0.5 * seg.max()
+    return p.lo + float((np.nonzero(top)[0] * seg[top]).sum() / seg[top].sum())
+
+
 def _coelute(a: _Peak, b: _Peak, options: FeatureOptions) -> bool:
-    if abs(a.apex - b.apex) > options.max_apex_shift_scans:
+    # Peaks sampled by many scans may be a few scans apart at the top by noise alone: allow a tenth of the narrower width.
+    allowed = max(options.max_apex_shift_scans, 0.1 * min(a.hi - a.lo + 1, b.hi - b.lo + 1))
+    if abs(a.centre - b.centre) > allowed:
         return False
-    lo, hi = min(a.lo, b.lo), max(a.hi, b.hi)
-    x, y = a.xic[lo : hi + 1], b.xic[lo : hi + 1]
-    if x.size < 3 or not x.std() or not y.std():
+    # Shapes compared where both peaks are, which must cover half the narrower one: a trace that
+    # also carries a neighbouring compound (close in m/z and time) does not spoil the comparison.
+    lo, hi = max(a.lo, b.lo), min(a.hi, b.hi)
+    if hi - lo + 1 < max(3, 0.5 * min(a.hi - a.lo + 1, b.hi - b.lo + 1)):
         return False
-    return float(np.corrcoef(x, y)[0, 1]) >= options.min_correlation
+    x = a.xic[lo : hi + 1] - a.xic[lo : hi + 1].mean()
+    y = b.xic[lo : hi + 1] - b.xic[lo : hi + 1].mean()
+    den = math.sqrt(float(x @ x) * float(y @ y))
+    return den > 0 and float(x @ y) / den >= options.min_correlation
 
 
 @dataclass
@@ -517,7 +537,8 @@ def _features_one_polarity(scans: list[Scan], in_window: np.ndarray, ms2_scans: 
     if tic <= 0:
         return [], 0.0
     peaks: list[_Peak] = []
-    for xic, mean_mz in _mass_traces(scans, options.trace_tolerance_ppm, options.min_scans):
+    # Traces below a thousandth of the listing threshold can be neither a feature nor a partner ion's isotope.
+    for xic, mean_mz in _mass_traces(scans, options.trace_tolerance_ppm, options.min_scans, in_window, 1e-3 * options.min_share * tic):
         peaks.extend(_pick_peaks(xic, mean_mz, rts, options.min_scans))
     sign = 1 if polarity == "positive" else -1
     envs = _envelopes(peaks, options, sign)
@@ -599,6 +620,7 @@ def _well_features(all_scans, window: FractionWindow, start: float, end: float, 
         found, tic = _features_one_polarity(scans, in_window, ms2, polarity, options)
         tics[polarity] = tic
         features.extend(found)
+    features = _merge_polarities(features, options)
     if n_survey == 0:
         notes.append(f"no survey scan between {start:.3f} and {end:.3f} min at the detector: the window lies outside the run")
     elif not features:
@@ -606,6 +628,45 @@ def _well_features(all_scans, window: FractionWindow, start: float, end: float, 
     features.sort(key=lambda f: -f.share)
     return WellMs(window.well, (window.start_min, window.end_min), (start, end), n_survey, tics,
                   tuple(features[: options.max_features]), options.major_share, tuple(notes))
+
+
+def _merge_polarities(features: list[LcmsFeature], options: FeatureOptions) -> list[LcmsFeature]:
+    """One feature per compound seen in both polarities (same neutral mass, overlapping peaks).
+
+    Its ions are both polarities' (most intense first, each polarity's ion current on its own
+    scale); its share is the larger of the two polarities' shares; its ion species are no
+    longer an assumption when the two polarities agree on the neutral mass.
+    """
+    pos = [f for f in features if f.polarity == "positive"]
+    neg = [f for f in features if f.polarity == "negative"]
+    if not pos or not neg:
+        return features
+    used: set[int] = set()
+    out = []
+    for p in pos:
+        match = None
+        for k, n in enumerate(neg):
+            if k in used or abs(p.neutral_mass - n.neutral_mass) > p.neutral_mass * options.tolerance_ppm * 1e-6:
+                continue
+            if p.rt_start_min <= n.rt_min <= p.rt_end_min or n.rt_start_min <= p.rt_min <= n.rt_end_min:
+                match = k
+                break
+        if match is None:
+            out.append(p)
+            continue
+        used.add(match)
+        n = neg[match]
+        main, other = (p, n) if p.share >= n.share else (n, p)
+        if main.species_assumed and not other.species_assumed:
+            mass = other.neutral_mass
+        elif other.species_assumed and not main.species_assumed:
+            mass = main.neutral_mass
+        else:
+            mass = 0.5 * (p.neutral_mass + n.neutral_mass)
+        out.append(LcmsFeature(mass, "both", main.ions + other.ions, main.rt_min, min(p.rt_start_min, n.rt_start_min),
+                               max(p.rt_end_min, n.rt_end_min), main.share, False, main.ms2 + other.ms2))
+    out.extend(n for k, n in enumerate(neg) if k not in used)
+    return out
 
 
 def _centroided(scan: Scan) -> Scan:
