@@ -42,7 +42,8 @@ def _is_isolated(spectrum: Spectrum, i: int, distance_hz: float) -> bool:
     seg = y[lo - 1 : hi + 1]
     peaks = np.flatnonzero((seg[1:-1] >= seg[:-2]) & (seg[1:-1] > seg[2:])) + lo
     others = peaks[np.abs(peaks - i) > core]
-    return not np.any(y[others] > 0.25 * y[i])
+    # Noise maxima are not partners: only neighbours clear of the noise count.
+    return not np.any(y[others] > max(0.25 * y[i], 5.0 * noise_level(y)))
 
 
 def _vertex(spectrum: Spectrum, i: int) -> float:
@@ -53,6 +54,72 @@ def _vertex(spectrum: Spectrum, i: int) -> float:
         frac = 0.5 * (a - c) / den if den < 0 else 0.0
     return float(spectrum.first_ppm - (i + frac) * spectrum.step_ppm)
 
+#: One-bond 13C-1H couplings of reference and solvent lines, Hz: 118 (TMS, DSS methyl) to 209
+#: (CHCl3); satellites sit at half of that either side, 0.55 % of the line each (common practice).
+SATELLITE_HALF_J_HZ = (50.0, 115.0)
+#: H-D couplings of CHD2 groups in the usual deuterated solvents, Hz (1.6-2.6; common practice).
+HD_COUPLING_HZ = (1.6, 2.7)
+
+
+def is_carbon_satellite(spectrum: Spectrum, i: int, *, ratio: float = 30.0) -> bool:
+    """True when a line ``ratio`` or more times taller stands at a 13C-satellite distance from line ``i``.
+
+    A reference line's own satellites are the nearest lines to its table position
+    once the axis is off by about half a one-bond coupling; they must never be taken
+    for the line itself.
+    """
+    y = spectrum.data.real
+    hz = spectrum.hz_per_point
+    lo_pts, hi_pts = int(SATELLITE_HALF_J_HZ[0] / hz), int(SATELLITE_HALF_J_HZ[1] / hz) + 1
+    for sign in (-1, 1):
+        a, b = sorted((i + sign * lo_pts, i + sign * hi_pts))
+        a, b = max(0, a), min(y.size, b + 1)
+        if b > a and y[a:b].max() >= ratio * y[i]:
+            return True
+    return False
+
+
+def quintet_ratios(spectrum: Spectrum, i: int) -> tuple[float, float, float]:
+    """(H-D coupling Hz, mean height at +-J over the centre, at +-2J over the centre), best J.
+
+    The J searched is the one whose four outer positions hold the most intensity.
+    """
+    y = spectrum.data.real
+    hz = spectrum.hz_per_point
+    grid = np.arange(HD_COUPLING_HZ[0], HD_COUPLING_HZ[1] + 1e-9, 0.05)
+    x = np.arange(y.size, dtype=float)
+    best = (float(grid[0]), 0.0, 0.0)
+    top = y[i]
+    if top <= 0:
+        return best
+    score_best = -np.inf
+    for j in grid:
+        d = j / hz
+        pts = np.array([i - 2 * d, i - d, i + d, i + 2 * d])
+        if pts.min() < 0 or pts.max() > y.size - 1:
+            continue
+        v = np.interp(pts, x, y)
+        score = v.sum()
+        if score > score_best:
+            score_best = score
+            best = (float(j), float((v[1] + v[2]) / (2 * top)), float((v[0] + v[3]) / (2 * top)))
+    return best
+
+
+def looks_like_quintet(spectrum: Spectrum, i: int) -> bool:
+    """True when line ``i`` is the centre of a 1:2:3:2:1 CHD2 quintet (or of a quintet too broad to resolve).
+
+    A resolved quintet has its first pair of lines at about 2/3 of the centre and its
+    second pair at about 1/3; a singlet at a coupling's distance has almost nothing.
+    Unresolved quintets (broad lines) pass when both pairs stay high: the width test
+    of the caller then decides.
+    """
+    _, first, second = quintet_ratios(spectrum, i)
+    resolved = 0.4 <= first <= 0.9 and 0.12 <= second <= 0.6 and second < first
+    unresolved = first > 0.9 and second > 0.5
+    return resolved or unresolved
+
+
 
 def find_peak(
     spectrum: Spectrum,
@@ -62,6 +129,7 @@ def find_peak(
     min_snr: float = 10.0,
     max_width_hz: float | None = None,
     isolated_hz: float | None = None,
+    pattern: str = "s",
 ) -> float | None:
     """Shift of the reference line near ``centre_ppm``, or None.
 
@@ -72,7 +140,10 @@ def find_peak(
     analyte multiplet beside the solvent line from being taken for it. With
     ``isolated_hz``, a candidate must also be a singlet: no other line of over a
     quarter of its height within that distance (a line of a multiplet has partners
-    at the coupling constant).
+    at the coupling constant). Candidates that look like a 13C satellite of a much
+    taller line are never taken (:func:`is_carbon_satellite`), and with
+    ``pattern='quint'`` a candidate must show the 1:2:3:2:1 lines of a CHD2 group
+    (:func:`quintet_ratios`).
     """
     y = spectrum.data.real
     floor = min_snr * noise_level(y)
@@ -86,6 +157,9 @@ def find_peak(
             idx = [i for i in idx if _half_width_hz(spectrum, i) <= max_width_hz]
         if isolated_hz is not None:
             idx = [i for i in idx if _is_isolated(spectrum, i, isolated_hz)]
+        idx = [i for i in idx if not is_carbon_satellite(spectrum, i)]
+        if pattern == "quint":
+            idx = [i for i in idx if looks_like_quintet(spectrum, i)]
         if not idx:
             continue
         tallest = max(y[i] for i in idx)
@@ -143,8 +217,11 @@ def reference_axis(
                     continue
                 # The centre line of a CHD2 quintet merges with its neighbours at half height.
                 width = sharp if singlet else sharp + MULTIPLET_EXTRA_WIDTH_HZ
-                at = find_peak(spectrum, sig.ppm, window_ppm=window, min_snr=5.0, max_width_hz=width,
-                               isolated_hz=SINGLET_ISOLATION_HZ if (singlet and isolated) else None)
+                # A line that is not isolated is taken only when it stands well clear of the
+                # noise: at low SNR an analyte line beside it is as likely.
+                at = find_peak(spectrum, sig.ppm, window_ppm=window, min_snr=5.0 if isolated else 20.0, max_width_hz=width,
+                               isolated_hz=SINGLET_ISOLATION_HZ if (singlet and isolated) else None,
+                               pattern=sig.multiplicity)
                 if at is not None:
                     if singlet and not isolated:
                         label += " (beside analyte lines)"
@@ -159,8 +236,11 @@ def reference_axis(
         # smaller correction of the spectrometer's own axis.
         # HDO moves with temperature and is distorted by presaturation: never let it
         # overrule DSS.
+        # In an organic solvent the residual line is always there while a line near 0 ppm
+        # may be grease or an analyte methyl: when the two disagree by more than the
+        # tolerance of a reference (0.02 ppm), the residual sets the axis.
         s_std, s_res = standard[2] - standard[3], residual[2] - residual[3]
-        if name not in AQUEOUS and abs(s_std - s_res) > 0.03 and abs(s_res) < abs(s_std):
+        if name not in AQUEOUS and abs(s_std - s_res) > 0.02:
             found = residual
     if found is None:
         return spectrum, Reference("none", f"none (no reference signal found for {name})", spectrum.first_ppm, None, "")

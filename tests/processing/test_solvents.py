@@ -93,3 +93,54 @@ def test_h2o_d2o_recordings_reference_on_dss(refdata, name):
     p = process(d)
     assert normalise_solvent(p.spectrum.solvent) == "H2O/D2O"
     assert (p.reference.kind, p.reference.ppm) == ("DSS", 0.0)
+
+
+# --- reference lines identified by their pattern -----------------------------------------
+
+def _spectrum_with(lines, *, mhz=400.0, solvent="acetone-d6", noise=2e-4, offset_ppm=0.0):
+    from nmrcheck.processing.transform import fourier_transform
+    from nmrcheck.synth import Line, simulate_fid
+
+    shifted = [Line(l.ppm + offset_ppm, l.h, l.width_hz, l.j_hz) for l in lines]
+    fid = simulate_fid(shifted, spectrometer_mhz=mhz, sweep_width_hz=12.0 * mhz, points=65536, carrier_ppm=4.5, noise=noise, seed=11)
+    spec = fourier_transform(fid, lb_hz=0.3)
+    from dataclasses import replace
+
+    return replace(spec, acquisition=replace(spec.acquisition, solvent=solvent))
+
+
+def test_chd2_quintet_recognised_and_a_singlet_beside_it_refused():
+    """Acetone-d5's residual is a 1:2:3:2:1 quintet (J(H,D) about 2.2 Hz) at 2.05 ppm (Gottlieb 1997,
+    from memory): with the axis 0.1 ppm off, the quintet sets the axis; a stronger analyte singlet
+    0.19 ppm away is not taken for it."""
+    from nmrcheck.processing.reference import reference_axis
+    from nmrcheck.synth import Line
+
+    quintet = Line(2.05, 0.3, 0.6, (2.2, 2.2, 2.2, 2.2))  # four equivalent couplings: 1:4:6:4:1 is a
+    # CHD2 group's 1:2:3:2:1 only approximately, so build the 1:2:3:2:1 lines explicitly
+    quintet_lines = [Line(2.05 + k * 2.2 / 400.0, 0.3 * w / 9.0, 0.6) for k, w in zip((-2, -1, 0, 1, 2), (1, 2, 3, 2, 1))]
+    del quintet
+    analyte = [Line(2.24, 3.0, 0.8), Line(7.20, 2.0, 1.0, (8.0,))]
+    spec = _spectrum_with(quintet_lines + analyte, offset_ppm=0.1)
+    _, ref = reference_axis(spec)
+    assert ref.line == "acetone-d5"
+    assert ref.found_ppm == pytest.approx(2.15, abs=0.005)
+    # Without the quintet, the singlet alone must not set the axis.
+    spec = _spectrum_with(analyte, offset_ppm=0.1)
+    _, ref = reference_axis(spec)
+    assert ref.kind == "none"
+
+
+def test_carbon_satellite_of_dss_is_never_taken_for_dss():
+    """DSS's methyl 13C satellites sit at +-59 Hz (1J(C,H) about 118 Hz; common practice) with 0.55 %
+    each: with the spectrometer's axis 0.09 ppm off at 600 MHz, the satellite lies nearer to 0 ppm
+    than DSS itself and must not be taken for it."""
+    from nmrcheck.processing.reference import reference_axis
+    from nmrcheck.synth import Line
+
+    dss = [Line(0.0, 9.0, 0.8), Line(0.0 + 59.0 / 600.0, 9.0 * 0.0055, 0.8), Line(0.0 - 59.0 / 600.0, 9.0 * 0.0055, 0.8)]
+    analyte = [Line(3.90, 3.0, 1.0), Line(1.30, 3.0, 1.0, (7.0,))]
+    spec = _spectrum_with(dss + analyte, mhz=600.0, solvent="D2O", noise=1e-4, offset_ppm=-0.09)
+    _, ref = reference_axis(spec)
+    assert ref.kind == "DSS"
+    assert ref.found_ppm == pytest.approx(-0.09, abs=0.005)

@@ -30,7 +30,7 @@ OWN_MISSES: dict[str, str] = {}
 #: the integrals anchor to the wrong H count as well as to the right one (a formula may lack
 #: exchangeable H), and the unsaturation minimum is not violated.
 NMR_ONLY_CAUGHT = {("+2H", "16485-10-2"), ("+2H", "2216-51-5"), ("-2H", "1047626-52-7"), ("-2H", "140-67-0"),
-                   ("-2H", "492-62-6"), ("-2H", "517920-70-6")}
+                   ("-2H", "492-62-6"), ("-2H", "517920-70-6"), ("-2H", "141-32-2")}
 NMR_ONLY_MISSES = {(f"{dh:+d}H", n) for dh in (2, -2) for n in COMPOUNDS} - NMR_ONLY_CAUGHT
 
 
