@@ -144,7 +144,7 @@ def test_check_text_shows_each_amount(recordings):
     result = _run("check", recordings / "ethanol", "--smiles", "CCO ethanol", *STANDARD)
     assert result.exit_code == 0, result.output
     assert "amount reference: DSS-d6" in result.output
-    assert any(ln.strip().startswith("amount 5 H:") and "ug" in ln for ln in result.output.splitlines())
+    assert any(ln.strip().startswith("amount 5 H:") and "µg" in ln for ln in result.output.splitlines())
 
 
 @pytest.mark.parametrize(

@@ -10,8 +10,8 @@ __all__ = ["amount_line"]
 
 def amount_line(amount: Mapping[str, Any], recommendation: Mapping[str, Any] | None = None) -> str:
     """One line: an amount block (``nmol``, ``ug``, ``conc_mM``, ...) and its go/no-go, as the JSON carries them."""
-    bits = [f"{amount[k]:.3g} {unit}" for k, unit in (("nmol", "nmol"), ("ug", "ug"), ("conc_mM", "mM")) if amount.get(k) is not None]
-    text = f"{', '.join(bits) or 'amount unknown'} +- {amount['uncertainty_pct']:.1f} % ({amount['method']})"
+    bits = [f"{amount[k]:.3g} {unit}" for k, unit in (("nmol", "nmol"), ("ug", "µg"), ("conc_mM", "mM")) if amount.get(k) is not None]
+    text = f"{', '.join(bits) or 'amount unknown'} ± {amount['uncertainty_pct']:.1f} % ({amount['method']})"
     if not recommendation:
         return text
     go = f"{recommendation['experiment']}: {recommendation['decision'].upper()}"

@@ -25,7 +25,7 @@ from nmrcheck.plate.results import VERDICTS, WellResult
 from nmrcheck.plate.store import DATABASE_NAME, ResultsStore
 from nmrcheck.report.plate_exports import write_csv, write_json
 from nmrcheck.report.plate_svg import SPECTRUM_INK, VERDICT_STYLE, legend_html, plate_map_svg, spectrum_svg, svg_defs
-from nmrcheck.report.triage import WellLine, activity_text, triage, well_line
+from nmrcheck.report.triage import WellLine, activity_text, display_units, triage, well_line
 
 __all__ = ["ASSAY_FILE", "CAUTIONS", "render_plate_report", "write_plate_report"]
 
@@ -337,8 +337,8 @@ def _candidates_table(result: WellResult) -> str:
         reasons = ch.get("reasons") or []
         if isinstance(reasons, str):
             reasons = [reasons]
-        first = escape(str(reasons[0])) if reasons else ('–' if ch else '<span class="muted">not checked</span>')
-        more = "".join(f"<li>{escape(str(r))}</li>" for r in reasons[1:])
+        first = escape(display_units(str(reasons[0]))) if reasons else ('–' if ch else '<span class="muted">not checked</span>')
+        more = "".join(f"<li>{escape(display_units(str(r)))}</li>" for r in reasons[1:])
         if more:
             first += f'<details><summary class="small muted">{len(reasons) - 1} more</summary><ul class="small">{more}</ul></details>'
         if c.get("problem"):
@@ -455,7 +455,7 @@ def _well_section(result: WellResult, line: WellLine, index: int, history_len: i
     out.append(_kv(pairs))
     warnings = list(proc.get("warnings") or []) + list(result.notes)
     if warnings:
-        out.append('<ul class="small">' + "".join(f"<li>{escape(user_citation(str(w)))}</li>" for w in warnings) + "</ul>")
+        out.append('<ul class="small">' + "".join(f"<li>{escape(display_units(user_citation(str(w))))}</li>" for w in warnings) + "</ul>")
     if result.status in ("done", "empty"):
         out.append(_candidates_table(result))
     out.append(_regions_table(result))
