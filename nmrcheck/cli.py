@@ -266,12 +266,15 @@ def plate_group() -> None:
 
 @plate_group.command("run", context_settings=CONTEXT)
 @click.argument("manifest", type=click.Path(dir_okay=False))
-@click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False), help="Output folder (results database, report).")
+@click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False), help="Output folder (results database, report). One run per folder at a time.")
 @click.option("--workers", type=Number(1, 256, integer=True), default=None, help="Local worker processes, 1 to 256 [default: every core].")
+@click.option("--well-timeout", default="120s", show_default=True, help="Time one well may take ('90s', '2min'; a bare number is seconds); a well past it is recorded as stopped.")
+@click.option("--well-memory", default="4GB", show_default=True, help="Memory one local worker may map ('4GB', '512MB'); a well needing more is recorded as stopped.")
 @click.option("--watch", is_flag=True, help="Keep running; screen recordings as they become complete.")
 @click.option("--time-limit", "time_limit_h", type=Number(1e-6, 10000), default=None, help="Watch mode: stop after this many hours.")
 @click.option("--poll", "poll_s", type=Number(0.05, 86400), default=10.0, show_default=True, help="Watch mode: seconds between looks at the plate folder.")
-@click.option("--redo", is_flag=True, help="Screen wells again even when they have a result for the same options.")
+@click.option("--quiet-seconds", "quiet_s", type=Number(0, 86400), default=30.0, show_default=True, help="Watch mode: a full-size recording is read once unchanged this long (a JCAMP-DX file closed by its ##END= at once).")
+@click.option("--redo", is_flag=True, help="Screen wells again even when they have a result for the same options and recording.")
 @click.option("--layout", type=click.Choice(["96", "384"]), default=None, help="Plate format [default: from the well names].")
 @click.option("--lb", "lb_hz", type=Number(-5, 50), default=None, help="Line broadening, Hz.")
 @click.option("--mass-tolerance", "mass_tolerance_ppm", type=Number(0, 1000), default=None, help=f"HRMS tolerance, ppm [default: {DEFAULT_TOLERANCE_PPM:g}].")
@@ -280,20 +283,23 @@ def plate_group() -> None:
 @click.option("--family", default=None, help="Family of the extract's organism (ranks known compounds).")
 @click.option("--retention-calibration", "retention_calibration", type=click.Path(exists=True, dir_okay=False), default=None,
               help="Reference compounds on the same gradient (CSV: rt_min, logp or smiles) for the retention check [default: fit on the plate].")
-@click.option("--scheduler", default=None, help="Dask distributed scheduler address (needs the 'dask' extra) instead of local processes.")
+@click.option("--scheduler", default=None, help="Dask distributed scheduler address, e.g. tcp://host:8786 (needs the 'dask' extra), instead of local processes.")
 @click.option("--no-report", is_flag=True, help="Do not write the HTML report and exports at the end.")
 @click.option("--assay", "assay_path", type=click.Path(dir_okay=False), default=None, help="Bioassay readouts per well (CSV: well,value[,unit,threshold,hit_when,assay]) to join in the report.")
 @click.option("--lcms", "lcms_run", type=click.Path(dir_okay=False), default=None, help="The extract's LC-MS run (mzML): each well's MS features come from it (the manifest's own entries win).")
 @click.option("--timetable", type=click.Path(dir_okay=False), default=None, help="Fraction-collection timetable (CSV: well, start_min, end_min) for --lcms.")
 @click.option("--collector-delay-min", "collector_delay_min", type=Number(0, 100), default=0.0, show_default=True, help="Time from the MS detector to the fraction collector, minutes.")
 @user_errors
-def plate_run(manifest, out_dir, workers, watch, time_limit_h, poll_s, redo, layout, lb_hz, mass_tolerance_ppm, library, genus, family, retention_calibration, scheduler, no_report, assay_path, lcms_run, timetable, collector_delay_min) -> None:
+def plate_run(manifest, out_dir, workers, well_timeout, well_memory, watch, time_limit_h, poll_s, quiet_s, redo, layout, lb_hz, mass_tolerance_ppm, library, genus, family, retention_calibration, scheduler, no_report, assay_path, lcms_run, timetable, collector_delay_min) -> None:
     """Screen every well of MANIFEST into --out; rerunning resumes. Exit 0 when the run completed."""
     from dataclasses import replace
 
     from nmrcheck.plate import ScreenOptions, progress_for, read_manifest, run_plate
+    from nmrcheck.plate.runner import RunInterrupted
+    from nmrcheck.plate.workers import WellLimits, parse_duration, parse_memory
     from nmrcheck.processing import ProcessingOptions
 
+    limits = WellLimits(time_s=parse_duration(well_timeout), memory_gb=parse_memory(well_memory))
     plate = read_manifest(manifest, layout=layout)
     if assay_path is not None:
         from nmrcheck.io.assay import read_assay
@@ -326,8 +332,11 @@ def plate_run(manifest, out_dir, workers, watch, time_limit_h, poll_s, redo, lay
             from distributed import Client
         except ImportError:
             raise click.UsageError("--scheduler needs Dask distributed: pip install 'nmrcheck[dask]'") from None
-        client = Client(scheduler)
-        executor = client.get_executor()
+        try:
+            client = Client(scheduler, timeout="30s")
+        except (OSError, TimeoutError) as exc:
+            raise click.UsageError(f"--scheduler {scheduler}: cannot reach the Dask scheduler ({exc})") from None
+        executor = client.get_executor(pure=False)
     try:
         summary = run_plate(
             plate,
@@ -335,12 +344,17 @@ def plate_run(manifest, out_dir, workers, watch, time_limit_h, poll_s, redo, lay
             options=options,
             workers=workers,
             executor=executor,
+            limits=limits,
             redo=redo,
             watch=watch,
             time_limit_s=time_limit_h * 3600 if time_limit_h else None,
             poll_s=poll_s,
+            quiet_s=quiet_s,
             progress=progress_for(sys.stderr),
         )
+    except RunInterrupted as exc:
+        click.echo(f"nmrcheck: {exc}", err=True)
+        sys.exit(128 + exc.signum)
     finally:
         if client is not None:
             client.close()

@@ -111,3 +111,7 @@ def human_message(exc: BaseException) -> str:
     kind = _KINDS.get(type(exc).__name__, "an unexpected failure")
     detail = _first_line(str(exc))
     return f"internal error ({kind}){': ' + detail if detail else ''}"
+
+
+class OutputError(NmrcheckError):
+    """An output folder or file cannot be written (disk full, read-only, in use by another run); names it."""

@@ -1,31 +1,45 @@
 """Run a plate: screen every well in parallel, store each result as it arrives, resume after a kill.
 
-The executor is pluggable: by default a local process pool on the machine's cores; any
-:class:`concurrent.futures.Executor` works, e.g. Dask distributed's
-``Client(address).get_executor()`` to spread many plates over a cluster.
+By default the wells run on supervised local worker processes (:mod:`nmrcheck.plate.workers`:
+a time and memory limit per well, no worker outliving the run). Any
+:class:`concurrent.futures.Executor` can do the work instead, e.g. Dask distributed's
+``Client(address).get_executor()`` to spread many plates over a cluster
+(:func:`run_plates`). One run per output folder at a time (:mod:`nmrcheck.plate.lock`);
+SIGTERM or SIGINT stops the run cleanly (workers killed, the run marked interrupted).
 """
 
 from __future__ import annotations
 
 import concurrent.futures as cf
+import contextlib
 import logging
+import math
 import os
+import signal
+import threading
 import time
-from collections import Counter
+from collections import Counter, deque
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
+from typing import Any, Iterable
 
 from nmrcheck import __version__
-from nmrcheck.errors import ParameterError
-from nmrcheck.io.completeness import expected_size_reached, file_signature
+from nmrcheck.errors import NmrcheckError, OutputError, ParameterError, human_message
+from nmrcheck.io.completeness import expected_size_reached, has_end_marker, recording_fingerprint
+from nmrcheck.plate.lock import OutputLock
 from nmrcheck.plate.manifest import Manifest, WellSpec, resolve_spectrum
 from nmrcheck.plate.progress import Progress
 from nmrcheck.plate.results import WellResult
-from nmrcheck.plate.screen import ScreenOptions, screen_well, well_options_hash
-from nmrcheck.plate.store import ResultsStore
+from nmrcheck.plate.screen import ScreenOptions, failure_result, screen_well, well_options_hash
+from nmrcheck.plate.store import ABSENT, ResultsStore
+from nmrcheck.plate.workers import LocalPool, WellLimits
 
-__all__ = ["RunSummary", "run_plate", "InlineExecutor", "default_workers"]
+__all__ = ["RunSummary", "RunInterrupted", "run_plate", "run_plates", "InlineExecutor", "default_workers", "DEFAULT_QUIET_S"]
+
+DEFAULT_QUIET_S = 30.0
+"""Watch mode: seconds a complete-sized recording must stay unchanged before it is read. Longer
+than the pause between two scans being added to a FID on a 1H experiment (a few seconds),
+short beside an overnight queue."""
 
 log = logging.getLogger("nmrcheck")
 
@@ -56,8 +70,16 @@ class RunSummary:
         return f"run {self.run_id} {self.status}: {self.screened} screened, {self.skipped} already done, in {self.wall_s:.1f} s ({counts}){tail}"
 
 
+class RunInterrupted(NmrcheckError):
+    """The run was stopped by a signal (SIGTERM, SIGINT, SIGHUP); ``signum`` is the signal."""
+
+    def __init__(self, signum: int, message: str | None = None) -> None:
+        self.signum = signum
+        super().__init__(message or f"stopped by {signal.Signals(signum).name}")
+
+
 class InlineExecutor(cf.Executor):
-    """Runs each task at submission in the calling process (one worker, no pickling)."""
+    """Runs each task at submission in the calling process (one worker, no pickling; no time or memory limit)."""
 
     def submit(self, fn, /, *args, **kwargs):  # noqa: D102 - Executor API
         fut: cf.Future = cf.Future()
@@ -92,23 +114,127 @@ def _preload() -> None:
             continue
 
 
-def _make_executor(workers: int | None) -> cf.Executor:
-    n = default_workers() if workers is None else workers
-    if n < 1:
-        raise ParameterError(f"workers: must be >= 1, got {workers}")
-    if n == 1:
-        return InlineExecutor()
-    _preload()
-    return cf.ProcessPoolExecutor(max_workers=n, initializer=_one_thread_per_worker)
+class _ExecutorBackend:
+    """Wells on any concurrent.futures executor, at most ``slots`` in flight.
+
+    The time limit counts from submission (a task cannot be stopped on someone else's
+    executor: the well is recorded as stopped and its future cancelled where possible);
+    the executor's own memory limits apply. Only as many wells as the executor has
+    workers are submitted at once, so a well waits little in its queue and an in-process
+    executor commits each well before it starts the next.
+    """
+
+    def __init__(self, executor: cf.Executor, directory: str, options: ScreenOptions, limits: WellLimits, slots: int, failure) -> None:
+        self._executor = executor
+        self._directory = directory
+        self._options = options
+        self._limits = limits
+        self._slots = max(1, slots)
+        self._failure = failure
+        self._in_flight: dict[cf.Future, tuple[WellSpec, float]] = {}
+
+    def free(self) -> int:
+        return max(0, self._slots - len(self._in_flight))
+
+    def busy(self) -> int:
+        return len(self._in_flight)
+
+    def submit(self, spec: WellSpec) -> None:
+        self._in_flight[self._executor.submit(screen_well, spec, self._directory, self._options)] = (spec, time.monotonic())
+
+    def poll(self, timeout: float) -> list[tuple[WellSpec, WellResult]]:
+        if not self._in_flight:
+            time.sleep(max(0.0, timeout))
+            return []
+        wait_s = max(0.0, timeout)
+        if self._limits.time_s:
+            first = min(t for _, t in self._in_flight.values())
+            wait_s = min(wait_s, max(0.0, first + self._limits.time_s - time.monotonic()))
+        finished, _ = cf.wait(list(self._in_flight), timeout=wait_s, return_when=cf.FIRST_COMPLETED)
+        out = []
+        for fut in finished:
+            spec, _ = self._in_flight.pop(fut)
+            out.append((spec, _result_of(fut, spec, self._failure)))
+        if self._limits.time_s:
+            now = time.monotonic()
+            for fut, (spec, t) in list(self._in_flight.items()):
+                if now - t >= self._limits.time_s:
+                    fut.cancel()
+                    del self._in_flight[fut]
+                    out.append((spec, self._failure(spec, f"took longer than {self._limits.timeout_text()} (the per-well time limit, --well-timeout); stopped")))
+        return out
+
+    def close(self) -> None:
+        for fut in self._in_flight:
+            fut.cancel()
+        self._in_flight.clear()
+
+    kill = close
 
 
-def _one_thread_per_worker() -> None:
-    """Keep each worker's BLAS/OpenMP pools to one thread: workers already fill the cores,
-    and nested thread pools on top of them halve the throughput (measured: 5.8 s against
-    3.3 s for a 96-well plate on 2 cores)."""
-    from threadpoolctl import threadpool_limits
+def _slots_of(executor: cf.Executor) -> int:
+    if isinstance(executor, InlineExecutor):
+        return 1
+    n = getattr(executor, "_max_workers", None)
+    if isinstance(n, int) and n > 0:
+        return n
+    client = getattr(executor, "_client", None)  # Dask distributed's ClientExecutor
+    if client is not None:
+        try:
+            return max(1, sum(client.nthreads().values()))
+        except Exception:  # noqa: BLE001 - a scheduler that does not answer: fall back
+            pass
+    return 2 * default_workers()
 
-    threadpool_limits(1)
+
+@contextlib.contextmanager
+def _stop_on_signals():
+    """In the main thread: SIGTERM, SIGINT (and SIGHUP unless ignored, e.g. under nohup) raise RunInterrupted once."""
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    fired = []
+
+    def handler(signum, frame):  # noqa: ARG001 - signal API
+        if fired:
+            return  # already stopping: let the clean-up finish
+        fired.append(signum)
+        raise RunInterrupted(signum)
+
+    wanted = [signal.SIGTERM, signal.SIGINT]
+    if hasattr(signal, "SIGHUP") and signal.getsignal(signal.SIGHUP) == signal.SIG_DFL:
+        wanted.append(signal.SIGHUP)
+    old = {s: signal.signal(s, handler) for s in wanted}
+    try:
+        yield
+    finally:
+        for s, h in old.items():
+            signal.signal(s, h)
+
+
+def _resolve_one(spec: WellSpec, directory: str) -> Path | None:
+    try:
+        matches = resolve_spectrum(spec, directory)
+    except OSError:
+        return None
+    return matches[0] if len(matches) == 1 else None
+
+
+def _fingerprint_of(spec: WellSpec, directory: str) -> str | None:
+    path = _resolve_one(spec, directory)
+    return None if path is None else recording_fingerprint(path)
+
+
+def _needs_screening(spec: WellSpec, key: tuple[str, str], stored: dict, directory: str) -> bool:
+    """A well is screened again when it has no result for these options or its recording changed since."""
+    if key not in stored:
+        return True
+    status, fingerprint = stored[key]
+    now = _fingerprint_of(spec, directory) or ABSENT
+    if fingerprint is None:
+        # Stored before fingerprints were kept: redo only what could not be read.
+        return status == "unreadable" and now != ABSENT
+    return now != fingerprint
 
 
 def run_plate(
@@ -118,10 +244,13 @@ def run_plate(
     options: ScreenOptions | None = None,
     workers: int | None = None,
     executor: cf.Executor | None = None,
+    executor_slots: int | None = None,
+    limits: WellLimits | None = None,
     redo: bool = False,
     watch: bool = False,
     time_limit_s: float | None = None,
     poll_s: float = 5.0,
+    quiet_s: float = DEFAULT_QUIET_S,
     progress: Progress | None = None,
 ) -> RunSummary:
     """Screen the wells of ``manifest`` and store their results in ``out_dir/results.sqlite``.
@@ -131,92 +260,131 @@ def run_plate(
     manifest
         A validated manifest (:func:`nmrcheck.plate.manifest.read_manifest`).
     out_dir
-        Output folder; an earlier run's database there is resumed.
+        Output folder; an earlier run's database there is resumed. One run per folder at a
+        time: another live run on it makes this one raise :class:`OutputError`.
     options
         Processing and search options; results are keyed by their hash with the manifest row.
     workers
-        Local processes (default: every core this process may use; 1 runs in-process).
-        Ignored when ``executor`` is given.
+        Local worker processes (default: every core this process may use). Ignored when
+        ``executor`` is given.
     executor
         Any :class:`concurrent.futures.Executor` (e.g. a Dask distributed client's
         ``get_executor()``); the caller owns it and shuts it down.
+    executor_slots
+        Wells in flight on ``executor`` at once (default: its worker count).
+    limits
+        Time and memory limit of one well (:class:`WellLimits`; default 120 s and 4 GB).
+        A well past one is recorded as stopped and the plate goes on. On an external
+        executor the time counts from submission and the memory limit is the executor's.
     redo
-        Screen wells again even when a result for the same options exists (history is kept).
+        Screen wells again even when a result for the same options and recording exists
+        (history is kept). Without it, wells whose recording changed or appeared since
+        their result are screened again.
     watch
         Keep running and pick up recordings as they become complete; stop when every well
-        has a result or after ``time_limit_s``.
+        has a result for its current recording, or after ``time_limit_s``.
     time_limit_s
         Stop waiting after this many seconds (watch mode); wells still incomplete stay pending.
     poll_s
-        Seconds between looks at the plate folder in watch mode. A recording is taken when
-        it has its full size and that size was the same at the previous look.
+        Seconds between looks at the plate folder in watch mode.
+    quiet_s
+        Watch mode: a recording with the size its header announces is read once it has not
+        changed for this many seconds (a JCAMP-DX file closed by its ``##END=`` at once).
     progress
         Receives start, per-well and finish events (:mod:`nmrcheck.plate.progress`).
+
+    Raises
+    ------
+    OutputError
+        The folder is in use by another run, or cannot be written (full disk, read-only).
+    RunInterrupted
+        SIGTERM/SIGINT/SIGHUP arrived; workers are stopped and the run is marked interrupted.
     """
     options = options or ScreenOptions()
+    limits = limits or WellLimits()
     progress = progress or Progress()
-    if time_limit_s is not None and time_limit_s <= 0:
+    if time_limit_s is not None and not (math.isfinite(time_limit_s) and time_limit_s > 0):
         raise ParameterError(f"time_limit_s: must be positive, got {time_limit_s}")
-    if poll_s <= 0:
+    if not (math.isfinite(poll_s) and poll_s > 0):
         raise ParameterError(f"poll_s: must be positive, got {poll_s}")
+    if not (math.isfinite(quiet_s) and quiet_s >= 0):
+        raise ParameterError(f"quiet_s: must be >= 0 s, got {quiet_s}")
+    if executor is None and workers is not None and workers < 1:
+        raise ParameterError(f"workers: must be >= 1, got {workers}")
     started = time.monotonic()
     out = Path(out_dir)
-    out.mkdir(parents=True, exist_ok=True)
-    own_executor = executor is None
-    pool = executor or _make_executor(workers)
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        from nmrcheck.io.atomic import describe_os_error
+
+        raise OutputError(f"{out}: cannot create the output folder ({describe_os_error(exc)})") from None
     run_options: dict[str, Any] = {
         "screen": options.as_dict(),
         "workers": workers,
         "watch": watch,
         "redo": redo,
+        "limits": {"well_timeout_s": limits.time_s, "well_memory_gb": limits.memory_gb},
         "layout": manifest.layout.name,
         "wells": [s.well for s in manifest.wells],
     }
-    with ResultsStore(out) as store:
+    directory = manifest.directory
+
+    def failure(spec: WellSpec, message: str) -> WellResult:
+        return failure_result(spec, options, message)
+
+    with OutputLock(out) as lock, ResultsStore(out) as store, _stop_on_signals():
         run_id = store.start_run(manifest=manifest.path, options=run_options, software_version=__version__)
-        finished = store.finished()
-        todo: list[WellSpec] = [
-            s for s in manifest.wells if redo or (s.well, well_options_hash(s, options)) not in finished
-        ]
+        keys = {s.well: (s.well, well_options_hash(s, options)) for s in manifest.wells}
+        stored = store.fingerprints()
+        todo = [s for s in manifest.wells if redo or _needs_screening(s, keys[s.well], stored, directory)]
         skipped = len(manifest.wells) - len(todo)
         progress.start(total=len(todo), skipped=skipped, watch=watch)
+        if executor is None:
+            _preload()
+            backend: Any = LocalPool(workers or default_workers(), directory, options, limits, failure, close_fds=(lock.fd,) if lock.fd is not None else ())
+        else:
+            backend = _ExecutorBackend(executor, directory, options, limits, executor_slots or _slots_of(executor), failure)
+        counter = {"done": 0, "total": len(todo)}
+
+        def store_result(spec: WellSpec, result: WellResult, fingerprint: str | None) -> None:
+            store.save(run_id, result, fingerprint=fingerprint)
+            counter["done"] += 1
+            counter["total"] = max(counter["total"], counter["done"])
+            progress.result(result, done=counter["done"], total=counter["total"])
+
         status = "complete"
-        done = 0
         try:
             if watch:
-                done, remaining = _run_watching(pool, store, run_id, manifest, todo, options, progress, started, time_limit_s, poll_s)
+                remaining = _run_watching(backend, store, keys, manifest, todo, store_result, progress, started, time_limit_s, poll_s, quiet_s)
                 status = "complete" if not remaining else "stopped"
             else:
-                futures = {pool.submit(screen_well, s, manifest.directory, options): s for s in todo}
-                for fut in cf.as_completed(futures):
-                    done += 1
-                    result = _result_of(fut, futures[fut], options)
-                    store.save(run_id, result)
-                    progress.result(result, done=done, total=len(todo))
-        except BaseException:
-            store.finish_run(run_id, "interrupted")
-            if own_executor:
-                pool.shutdown(wait=False, cancel_futures=True)
+                _run_all(backend, todo, directory, store_result)
+        except BaseException as exc:
+            backend.kill()
+            with contextlib.suppress(OutputError):
+                store.finish_run(run_id, "interrupted")
+            if isinstance(exc, RunInterrupted):
+                name = signal.Signals(exc.signum).name
+                raise RunInterrupted(exc.signum, f"{out}: run stopped by {name} after {counter['done']} well(s) were stored; run the same command again to resume") from None
             raise
-        if own_executor:
-            pool.shutdown(wait=True)
+        backend.close()
         # Plate-level step: the retention fit needs every well's result.
         from nmrcheck.plate.retention_pass import retention_pass
 
         retention_pass(store, run_id, {s.well for s in manifest.wells}, calibration=options.retention_calibration)
         current = store.current(with_trace=False)
-        hashes = {s.well: well_options_hash(s, options) for s in manifest.wells}
-        have = {w for w, r in current.items() if w in hashes}
+        have = {w for w, r in current.items() if w in keys}
         pending = tuple(s.well for s in manifest.wells if s.well not in have)
         if pending:
             status = "stopped"
         store.finish_run(run_id, status)
-        verdicts = Counter(r.verdict for w, r in current.items() if w in hashes)
+        verdicts = Counter(r.verdict for w, r in current.items() if w in keys)
     summary = RunSummary(
         run_id=run_id,
         out_dir=str(out),
         wells=len(manifest.wells),
-        screened=done,
+        screened=counter["done"],
         skipped=skipped,
         pending=pending,
         status=status,
@@ -228,65 +396,109 @@ def run_plate(
     return summary
 
 
-def _result_of(fut: cf.Future, spec: WellSpec, options: ScreenOptions) -> WellResult:
-    """The future's result; a worker that died still yields a result (an error) for its well."""
+def _run_all(backend, todo: list[WellSpec], directory: str, store_result) -> None:
+    queue = deque(todo)
+    fingerprints: dict[str, str | None] = {}
+    while queue or backend.busy():
+        while queue and backend.free():
+            spec = queue.popleft()
+            # Taken before the well is read: a recording rewritten meanwhile differs at the next run.
+            fingerprints[spec.well] = _fingerprint_of(spec, directory)
+            backend.submit(spec)
+        for spec, result in backend.poll(1.0):
+            store_result(spec, result, fingerprints.pop(spec.well, None))
+
+
+def _result_of(fut: cf.Future, spec: WellSpec, failure) -> WellResult:
+    """The future's result; a task that failed or whose worker died still yields a result (an error) for its well."""
     try:
         return fut.result()
-    except Exception as exc:  # noqa: BLE001 - e.g. BrokenProcessPool: the well is recorded as an error
-        return WellResult(
-            well=spec.well,
-            status="error",
-            verdict="error",
-            error=f"{type(exc).__name__}: {exc}",
-            software_version=__version__,
-            options_hash=well_options_hash(spec, options),
-            spec=spec.as_dict(),
-        )
+    except cf.CancelledError:
+        return failure(spec, "the well's task was cancelled by the executor; stopped")
+    except Exception as exc:  # noqa: BLE001 - e.g. Dask's KilledWorker: the well is recorded as an error
+        return failure(spec, f"the executor could not screen this well: {human_message(exc)}")
 
 
-def _ready(spec: WellSpec, directory: str, last_seen: dict[str, Any], settle_s: float) -> bool:
-    """True when the well's recording is complete and has kept the same size and time for ``settle_s``."""
-    matches = resolve_spectrum(spec, directory)
-    if len(matches) != 1:
+def _ready(spec: WellSpec, directory: str, last_seen: dict[str, Any], quiet_s: float, now: float) -> bool:
+    """True when the well's recording has all its data and has been unchanged for ``quiet_s`` (or carries its end marker)."""
+    path = _resolve_one(spec, directory)
+    fingerprint = None if path is None else recording_fingerprint(path)
+    if fingerprint is None or not expected_size_reached(path):
         last_seen.pop(spec.well, None)
         return False
-    path = matches[0]
-    signature = file_signature(path)
-    if signature is None or not expected_size_reached(path):
-        last_seen.pop(spec.well, None)
-        return False
-    now = time.monotonic()
+    if has_end_marker(path):
+        return True
     seen = last_seen.get(spec.well)
-    if seen is None or seen[0] != signature:
-        last_seen[spec.well] = (signature, now)
-        return False
-    return now - seen[1] >= settle_s
+    if seen is None or seen[0] != fingerprint:
+        last_seen[spec.well] = (fingerprint, now)
+        return quiet_s == 0
+    return now - seen[1] >= quiet_s
 
 
-def _run_watching(pool, store, run_id, manifest, todo, options, progress, started, time_limit_s, poll_s):
-    waiting = {s.well: s for s in todo}
-    in_flight: dict[cf.Future, WellSpec] = {}
+def _run_watching(backend, store, keys, manifest, todo, store_result, progress, started, time_limit_s, poll_s, quiet_s):
+    """Screen wells as their recordings become complete; a recording that changes after its result is screened again."""
+    directory = manifest.directory
+    specs = {s.well: s for s in manifest.wells}
+    waiting = {s.well for s in todo}
+    screened: dict[str, str | None] = {}  # well -> fingerprint of what its current result was made from
+    for (well, h), (_status, fp) in store.fingerprints().items():
+        if well in specs and keys[well][1] == h and well not in waiting:
+            if fp == ABSENT:
+                waiting.add(well)  # recorded as missing by an earlier run: watch for it now
+            else:
+                screened[well] = fp
+    queue: deque[WellSpec] = deque()
+    submitted: dict[str, str | None] = {}
     last_seen: dict[str, Any] = {}
-    done = 0
-    while waiting or in_flight:
-        for well, spec in list(waiting.items()):
-            if _ready(spec, manifest.directory, last_seen, poll_s):
-                in_flight[pool.submit(screen_well, spec, manifest.directory, options)] = spec
-                del waiting[well]
-        if waiting:
-            progress.waiting(len(waiting))
-        if in_flight:
-            finished, _ = cf.wait(in_flight, timeout=poll_s, return_when=cf.FIRST_COMPLETED)
-            for fut in finished:
-                spec = in_flight.pop(fut)
-                done += 1
-                result = _result_of(fut, spec, options)
-                store.save(run_id, result)
-                progress.result(result, done=done, total=len(todo))
-        elif waiting:
-            if time_limit_s is not None and time.monotonic() - started >= time_limit_s:
-                break
-            time.sleep(poll_s)
-        if time_limit_s is not None and time.monotonic() - started >= time_limit_s and not in_flight:
+    next_look = 0.0
+    while True:
+        now = time.monotonic()
+        if now >= next_look:
+            next_look = now + poll_s
+            for well, fp in list(screened.items()):
+                current = _fingerprint_of(specs[well], directory)
+                if fp is not None and (current or ABSENT) != fp:
+                    log.info("well %s: its recording changed since it was screened; waiting to screen it again", well)
+                    del screened[well]
+                    waiting.add(well)
+            for well in [w for w in specs if w in waiting]:
+                if _ready(specs[well], directory, last_seen, quiet_s, now):
+                    waiting.discard(well)
+                    queue.append(specs[well])
+            if waiting:
+                progress.waiting(len(waiting))
+        while queue and backend.free():
+            spec = queue.popleft()
+            submitted[spec.well] = _fingerprint_of(spec, directory)
+            backend.submit(spec)
+        if not (waiting or queue or backend.busy()):
             break
-    return done, tuple(waiting)
+        if time_limit_s is not None and time.monotonic() - started >= time_limit_s and not backend.busy() and not queue:
+            break
+        wait_s = max(0.01, next_look - time.monotonic())
+        for spec, result in backend.poll(wait_s):
+            fp = submitted.pop(spec.well, None)
+            store_result(spec, result, fp)
+            screened[spec.well] = fp or ABSENT
+    return tuple(w for w in specs if w in waiting)
+
+
+def run_plates(
+    jobs: Iterable[tuple[Manifest, str | os.PathLike]],
+    *,
+    executor: cf.Executor,
+    executor_slots: int | None = None,
+    **kwargs: Any,
+) -> list[RunSummary]:
+    """Screen several plates at once on one executor (e.g. a Dask cluster): one thread per plate feeds it.
+
+    ``jobs`` are (manifest, output folder) pairs, each folder its own database and lock;
+    ``kwargs`` go to :func:`run_plate`. Returns the summaries in the order of ``jobs``;
+    the first plate that fails raises after the others have finished.
+    """
+    jobs = list(jobs)
+    if not jobs:
+        return []
+    with cf.ThreadPoolExecutor(max_workers=len(jobs), thread_name_prefix="nmrcheck-plate") as feeders:
+        futures = [feeders.submit(run_plate, m, out, executor=executor, executor_slots=executor_slots, **kwargs) for m, out in jobs]
+        return [f.result() for f in futures]

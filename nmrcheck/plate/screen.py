@@ -26,7 +26,7 @@ from nmrcheck.plate.manifest import WellSpec, resolve_spectrum
 from nmrcheck.plate.results import SpectrumTrace, WellResult, options_hash
 from nmrcheck.processing import ProcessingOptions
 
-__all__ = ["ScreenOptions", "screen_well", "well_options_hash", "plain"]
+__all__ = ["ScreenOptions", "failure_result", "screen_well", "well_options_hash", "plain"]
 
 log = logging.getLogger("nmrcheck")
 
@@ -77,6 +77,19 @@ class ScreenOptions:
 def well_options_hash(spec: WellSpec, options: ScreenOptions) -> str:
     """Key of a result: the options and what of the manifest row changes the result."""
     return options_hash(options.as_dict(), spec.fingerprint())
+
+
+def failure_result(spec: WellSpec, options: "ScreenOptions", message: str, *, status: str = "error") -> WellResult:
+    """The record of a well the run could not screen (stopped on a limit, worker lost): status and reason only."""
+    return WellResult(
+        well=spec.well,
+        status=status,
+        verdict=status,
+        error=message,
+        software_version=__version__,
+        options_hash=well_options_hash(spec, options),
+        spec=spec.as_dict(),
+    )
 
 
 def plain(value: Any) -> Any:

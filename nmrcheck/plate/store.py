@@ -1,7 +1,11 @@
 """The results database: one SQLite file per plate folder, one transaction per well, history kept.
 
 Killing a run loses at most the wells in flight: a well's result is committed as soon as it
-arrives, and a rerun skips wells with a current result for the same options.
+arrives, and a rerun skips wells with a current result for the same options and the same
+recording (its fingerprint is stored beside the result). A well's record is one JSON
+payload, so later stages add fields to it without a schema change. A full disk or a
+read-only folder is an :class:`~nmrcheck.errors.OutputError` naming the database; SQLite's
+own journal keeps the file consistent (the well being written is simply not there).
 """
 
 from __future__ import annotations
@@ -16,6 +20,8 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
+from nmrcheck.errors import OutputError
+from nmrcheck.io.atomic import describe_os_error
 from nmrcheck.plate.results import SpectrumTrace, WellResult
 
 __all__ = ["ResultsStore", "RunRecord", "DATABASE_NAME"]
@@ -60,7 +66,33 @@ CREATE TABLE IF NOT EXISTS history (
 );
 CREATE INDEX IF NOT EXISTS history_well ON history (well);
 CREATE TABLE IF NOT EXISTS plate_records (key TEXT PRIMARY KEY, recorded_utc TEXT NOT NULL, value_json TEXT NOT NULL);
+CREATE TABLE IF NOT EXISTS recordings (
+    well TEXT NOT NULL,
+    options_hash TEXT NOT NULL,
+    fingerprint TEXT NOT NULL,
+    PRIMARY KEY (well, options_hash)
+);
 """
+
+ABSENT = "absent"
+"""Fingerprint stored for a well whose recording was not there when it was screened."""
+
+
+def _why(exc: sqlite3.Error) -> str:
+    text = str(exc).lower()
+    if "full" in text:
+        return "the disk is full"
+    if "readonly" in text or "read-only" in text:
+        return "the folder or the database is read-only"
+    if "unable to open" in text:
+        return "it cannot be opened (no such folder, or no permission to write there)"
+    if "not a database" in text or "malformed" in text:
+        return "it is not a results database or it is damaged"
+    if "locked" in text or "busy" in text:
+        return "another process holds it locked"
+    if "disk i/o" in text:
+        return "a disk input/output error"
+    return str(exc)
 
 
 def _utc() -> str:
@@ -88,22 +120,60 @@ class ResultsStore:
         The database file, or an output folder (``results.sqlite`` inside it).
     """
 
-    def __init__(self, path: str | os.PathLike) -> None:
+    def __init__(self, path: str | os.PathLike, *, readonly: bool = False) -> None:
         p = Path(path)
+        self.readonly = readonly
+        if readonly:
+            if p.is_dir():
+                p = p / DATABASE_NAME
+            self.path = p
+            self._conn = None
+            try:
+                self._conn = sqlite3.connect(f"{p.resolve().as_uri()}?mode=ro", uri=True, timeout=30.0, isolation_level=None)
+                self._conn.execute("SELECT COUNT(*) FROM results").fetchone()
+            except sqlite3.Error as exc:
+                if self._conn is not None:
+                    self._conn.close()
+                raise self.error(exc) from None
+            return
         if p.is_dir() or not p.suffix:
-            p.mkdir(parents=True, exist_ok=True)
+            try:
+                p.mkdir(parents=True, exist_ok=True)
+            except OSError as exc:
+                raise OutputError(f"{p}: cannot create the output folder ({describe_os_error(exc)})") from None
             p = p / DATABASE_NAME
         self.path = p
-        # isolation_level=None: transactions are explicit, one per well.
-        self._conn = sqlite3.connect(str(p), timeout=30.0, isolation_level=None)
-        self._conn.execute("PRAGMA journal_mode=WAL")
-        self._conn.execute("PRAGMA synchronous=NORMAL")
-        self._conn.executescript(_SCHEMA)
-        self._conn.execute("INSERT OR IGNORE INTO meta VALUES ('schema_version', ?)", (str(SCHEMA_VERSION),))
+        self._conn = None
+        try:
+            # isolation_level=None: transactions are explicit, one per well.
+            self._conn = sqlite3.connect(str(p), timeout=30.0, isolation_level=None)
+            self._conn.execute("PRAGMA journal_mode=WAL")
+            self._conn.execute("PRAGMA synchronous=NORMAL")
+            self._conn.executescript(_SCHEMA)
+            self._conn.execute("INSERT OR IGNORE INTO meta VALUES ('schema_version', ?)", (str(SCHEMA_VERSION),))
+        except sqlite3.Error as exc:
+            if self._conn is not None:
+                self._conn.close()
+            raise self.error(exc) from None
+
+    def error(self, exc: sqlite3.Error) -> OutputError:
+        """The one-line error for a failed database operation."""
+        return OutputError(f"{self.path}: {_why(exc)}; the results stored so far are kept (rerun to resume)")
 
     # -- context management
     def close(self) -> None:
+        if self._conn is None:
+            return
+        if not self.readonly:
+            # Back to a rollback journal when the run is done: readers (the report) then need
+            # no shared-memory file, so they work on a full disk or a read-only folder.
+            try:
+                self._conn.execute("PRAGMA busy_timeout=0")
+                self._conn.execute("PRAGMA journal_mode=DELETE")
+            except sqlite3.Error:
+                pass  # another connection is open: it stays in WAL mode, which is fine
         self._conn.close()
+        self._conn = None
 
     def __enter__(self) -> "ResultsStore":
         return self
@@ -132,8 +202,12 @@ class ResultsStore:
         return [RunRecord(r[0], r[1], r[2], r[3], json.loads(r[4]), r[5], r[6]) for r in rows]
 
     # -- results
-    def save(self, run_id: str, result: WellResult) -> None:
-        """Store one well's result in its own transaction: current row replaced, history appended."""
+    def save(self, run_id: str, result: WellResult, *, fingerprint: str | None = None) -> None:
+        """Store one well's result in its own transaction: current row replaced, history appended.
+
+        ``fingerprint`` identifies the recording screened (:func:`nmrcheck.io.completeness.recording_fingerprint`;
+        None when it was not there), so a later run notices a changed or newly written recording.
+        """
         payload = result.to_json()
         blob = result.trace.to_bytes() if result.trace is not None else None
         now = _utc()
@@ -146,6 +220,10 @@ class ResultsStore:
             self._conn.execute(
                 "INSERT OR REPLACE INTO results VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)",
                 (result.well, result.options_hash, run_id, now, cur.lastrowid, result.status, result.verdict, payload, blob),
+            )
+            self._conn.execute(
+                "INSERT OR REPLACE INTO recordings VALUES (?, ?, ?)",
+                (result.well, result.options_hash, fingerprint or ABSENT),
             )
 
     def amend(self, result: WellResult) -> None:
@@ -166,6 +244,14 @@ class ResultsStore:
     def finished(self) -> set[tuple[str, str]]:
         """(well, options hash) pairs that have a current result."""
         return {(w, h) for w, h in self._conn.execute("SELECT well, options_hash FROM results")}
+
+    def fingerprints(self) -> dict[tuple[str, str], tuple[str, str | None]]:
+        """(well, options hash) -> (status, fingerprint of the recording screened; None when not stored)."""
+        rows = self._conn.execute(
+            "SELECT r.well, r.options_hash, r.status, g.fingerprint FROM results r "
+            "LEFT JOIN recordings g ON g.well = r.well AND g.options_hash = r.options_hash"
+        ).fetchall()
+        return {(w, h): (st, fp) for w, h, st, fp in rows}
 
     def current(self, *, with_trace: bool = True) -> dict[str, WellResult]:
         """The latest result of every well (whatever its options), by well name."""
@@ -203,18 +289,37 @@ class ResultsStore:
         row = self._conn.execute("SELECT value_json FROM plate_records WHERE key=?", (key,)).fetchone()
         return json.loads(row[0]) if row else None
 
+    def integrity_ok(self) -> bool:
+        """SQLite's own full consistency check of the database file."""
+        return self._conn.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
+
     def count_history(self) -> int:
         return int(self._conn.execute("SELECT COUNT(*) FROM history").fetchone()[0])
 
     def _transaction(self):
         conn = self._conn
+        store = self
 
         class _T:
             def __enter__(self_inner) -> None:
-                conn.execute("BEGIN IMMEDIATE")
+                try:
+                    conn.execute("BEGIN IMMEDIATE")
+                except sqlite3.Error as exc:
+                    raise store.error(exc) from None
 
             def __exit__(self_inner, et, ev, tb) -> bool:
-                conn.execute("COMMIT" if et is None else "ROLLBACK")
+                if et is None:
+                    try:
+                        conn.execute("COMMIT")
+                        return False
+                    except sqlite3.Error as exc:
+                        ev = exc
+                try:
+                    conn.execute("ROLLBACK")
+                except sqlite3.Error:
+                    pass
+                if isinstance(ev, sqlite3.Error):
+                    raise store.error(ev) from None
                 return False
 
         return _T()

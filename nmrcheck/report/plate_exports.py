@@ -1,18 +1,45 @@
-"""CSV and JSON exports of a plate's results: the same records the HTML report shows."""
+"""CSV and JSON exports of a plate's results: the same records the HTML report shows.
+
+The CSV is safe to open in a spreadsheet: a text cell that a spreadsheet would take for a
+formula (starting with ``=``, ``+``, ``-``, ``@``, a tab or a carriage return) gets a leading
+single quote, following the OWASP guidance on CSV injection; numbers, negative ones
+included, are written as numbers. Both files are written whole or not at all (a temporary
+file renamed over the old one).
+"""
 
 from __future__ import annotations
 
 import csv
+import io
 import json
 import os
+import re
 from pathlib import Path
 from typing import Any, Iterable, Mapping
 
+from nmrcheck.io.atomic import write_text_atomically
 from nmrcheck.plate.results import WellResult
 from nmrcheck.report.amount_text import amount_line
 from nmrcheck.report.triage import WellLine, well_line
 
-__all__ = ["CSV_COLUMNS", "amount_text", "recommendation_text", "well_row", "write_csv", "write_json"]
+__all__ = ["CSV_COLUMNS", "amount_text", "recommendation_text", "spreadsheet_safe", "well_row", "write_csv", "write_json"]
+
+_FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+_PLAIN_NUMBER = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?")
+
+
+def spreadsheet_safe(cell: str) -> str:
+    """``cell`` with a leading ``'`` when a spreadsheet would read it as a formula (OWASP, CSV injection).
+
+    A plain decimal number (``-3.2``, ``+1e-5``) is left alone: a spreadsheet reads it as the
+    number it is, which is what the column means; anything else starting with ``=``, ``+``,
+    ``-``, ``@``, a tab or a carriage return is shown as text.
+    """
+    if not cell or not cell.startswith(_FORMULA_START):
+        return cell
+    if _PLAIN_NUMBER.fullmatch(cell):
+        return cell
+    return "'" + cell
 
 CSV_COLUMNS = (
     "well",
@@ -156,14 +183,13 @@ def well_row(result: WellResult, line: WellLine | None = None) -> dict[str, str]
 
 def write_csv(results: Iterable[WellResult], path: str | os.PathLike, *, lines: Mapping[str, WellLine] | None = None) -> Path:
     """One row per well, columns :data:`CSV_COLUMNS` (UTF-8: units are written µg, µL, ±)."""
-    p = Path(path)
     lines = lines or {}
-    with open(p, "w", newline="", encoding="utf-8") as fh:
-        writer = csv.DictWriter(fh, fieldnames=list(CSV_COLUMNS))
-        writer.writeheader()
-        for r in results:
-            writer.writerow(well_row(r, lines.get(r.well)))
-    return p
+    buffer = io.StringIO()
+    writer = csv.DictWriter(buffer, fieldnames=list(CSV_COLUMNS))
+    writer.writeheader()
+    for r in results:
+        writer.writerow({k: spreadsheet_safe(v) for k, v in well_row(r, lines.get(r.well)).items()})
+    return write_text_atomically(path, buffer.getvalue())
 
 
 def _triage_dict(line: WellLine) -> dict[str, Any]:
@@ -187,7 +213,6 @@ def _triage_dict(line: WellLine) -> dict[str, Any]:
 def write_json(results: Iterable[WellResult], path: str | os.PathLike, *, run: Mapping[str, Any] | None = None,
                lines: Mapping[str, WellLine] | None = None, assay: Mapping[str, Any] | None = None) -> Path:
     """Every field of every well's result (without the display trace), its triage line and assay readout, and the run."""
-    p = Path(path)
     lines = lines or {}
     wells = []
     for r in results:
@@ -197,5 +222,4 @@ def write_json(results: Iterable[WellResult], path: str | os.PathLike, *, run: M
         d["assay"] = line.activity.as_dict() if line.activity is not None else None
         wells.append(d)
     doc = {"run": dict(run or {}), "wells": wells}
-    p.write_text(json.dumps(doc, indent=1, sort_keys=True, default=str), encoding="utf-8")
-    return p
+    return write_text_atomically(path, json.dumps(doc, indent=1, sort_keys=True, default=str))

@@ -20,6 +20,7 @@ from typing import Any, Mapping
 from nmrcheck import __version__
 from nmrcheck.data import user_citation
 from nmrcheck.io.assay import AssayReadout, read_assay, write_assay
+from nmrcheck.io.atomic import write_text_atomically
 from nmrcheck.plate.manifest import layout_named
 from nmrcheck.plate.results import VERDICTS, WellResult
 from nmrcheck.plate.store import DATABASE_NAME, ResultsStore
@@ -609,7 +610,7 @@ def write_plate_report(
         write_assay(readouts.values(), out / ASSAY_FILE)
     elif (out / ASSAY_FILE).is_file():
         readouts = read_assay(out / ASSAY_FILE)
-    with ResultsStore(out) as store:
+    with ResultsStore(out, readonly=True) as store:
         runs = store.runs()
         results = store.current()
         history_counts = {w: len(store.history(w)) for w in results}
@@ -636,10 +637,10 @@ def write_plate_report(
         assay=readouts,
         nmredata=links,
     )
-    report = out / html_name
-    report.write_text(html, encoding="utf-8")
+    # Exports first, the page that links to them last; each written whole or not at all.
     ordered = [results[w] for w in sorted(results, key=_well_sort_key)]
     write_csv(ordered, out / "results.csv", lines=lines)
     write_json(ordered, out / "results.json", run=run_info, lines=lines, assay=readouts)
+    report = write_text_atomically(out / html_name, html)
     log.info("report written: %s", report)
     return report

@@ -38,12 +38,29 @@ def test_unfinished_run_is_marked_interrupted(tmp_path):
         assert [r.status for r in store.runs()] == ["interrupted", "running"]
 
 
-def test_database_uses_write_ahead_logging(tmp_path):
+def test_database_uses_write_ahead_logging_while_open(tmp_path):
+    """WAL while a run writes (readers never block it); a rollback journal once closed, so a
+    read-only reader needs no shared-memory file (SQLite documentation, 'WAL mode'; from memory)."""
     import sqlite3
 
-    ResultsStore(tmp_path).close()
-    mode = sqlite3.connect(tmp_path / "results.sqlite").execute("PRAGMA journal_mode").fetchone()[0]
-    assert mode == "wal"
+    with ResultsStore(tmp_path):
+        with sqlite3.connect(tmp_path / "results.sqlite") as other:
+            assert other.execute("PRAGMA journal_mode").fetchone()[0] == "wal"
+        other.close()
+    with sqlite3.connect(tmp_path / "results.sqlite") as other:
+        assert other.execute("PRAGMA journal_mode").fetchone()[0] == "delete"
+    other.close()
+
+
+def test_read_only_store_reads_without_writing(tmp_path):
+    with ResultsStore(tmp_path) as store:
+        run = store.start_run(manifest="m.csv", options={}, software_version="0")
+        store.save(run, _result("A1"), fingerprint="f1")
+    before = sorted(p.name for p in tmp_path.iterdir())
+    with ResultsStore(tmp_path, readonly=True) as store:
+        assert store.current()["A1"].verdict == "consistent"
+        assert store.fingerprints() == {("A1", "abc"): ("done", "f1")}
+    assert sorted(p.name for p in tmp_path.iterdir()) == before
 
 
 def test_amend_replaces_the_current_record_without_new_history(tmp_path):
