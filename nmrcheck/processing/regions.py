@@ -9,7 +9,7 @@ import numpy as np
 from scipy.ndimage import maximum_filter1d, uniform_filter1d
 
 from nmrcheck.processing.results import Region
-from nmrcheck.processing.solvents import SolventSignal, normalise_solvent, solvent_signals
+from nmrcheck.processing.solvents import AQUEOUS, SolventSignal, normalise_solvent, solvent_signals
 from nmrcheck.processing.spectrum import Spectrum
 
 __all__ = ["find_regions", "integrate"]
@@ -97,6 +97,18 @@ def find_regions(
         flag = "solvent" if singlet.kind == "residual" else "reference"
         line_regions.append(Region(peak_ppm + 3 * half_ppm, peak_ppm - 3 * half_ppm, area, None, flag,
                                    f"{singlet.name} (modelled line)", peak_ppm))
+    water_modelled = False
+    if name not in AQUEOUS:
+        for water in (sig for sig in signals if sig.kind == "water" and sig.multiplicity == "s"):
+            at = _water_line(spectrum, water.ppm, noise)
+            model = None if at is None else _singlet_model(spectrum, at, tol_ppm=0.003)
+            if model is None:
+                continue
+            curve, area, peak_ppm, half_ppm = model
+            y = y - curve
+            water_modelled = True
+            line_regions.append(Region(peak_ppm + 3 * half_ppm, peak_ppm - 3 * half_ppm, area, None, "water",
+                                       f"{water.name} (modelled line)", peak_ppm))
     smooth = uniform_filter1d(y, size=max(1, int(round(0.5 / hz)) | 1))
     mask = smooth > threshold_snr * noise
     merge = max(1, int(round(merge_hz / hz)))
@@ -119,7 +131,8 @@ def find_regions(
     raw.extend([r.start_ppm, r.end_ppm, r.integral, r.peak_ppm, 0.0] for r in line_regions)
     regions: list[Region] = []
     for start, end, integral, peak, height in raw[:measured]:
-        flag, label = _flag(start, end, peak, signals, reference_name, exclude_ppm, flag_tolerance_ppm, hz / step)
+        flag, label = _flag(start, end, peak, signals, reference_name, exclude_ppm, flag_tolerance_ppm, hz / step,
+                            water_modelled=water_modelled)
         for line in line_regions:
             near_centre = abs(peak - line.peak_ppm) <= 2 * (line.start_ppm - line.peak_ppm)
             # Truncation wiggles and the shim foot of a line far above the analyte: small
@@ -342,7 +355,26 @@ def _close(mask: np.ndarray, width: int) -> np.ndarray:
     return ~maximum_filter1d((~grown.astype(bool)).astype(np.uint8), size=width).astype(bool)
 
 
-def _flag(start, end, peak, signals, reference_name, exclude_ppm, tol, mhz):
+#: Water in organic solvents: a singlet (exchange-broadened, up to about 10 Hz wide) that moves
+#: with temperature and concentration by about 0.15 ppm about its table position (Gottlieb 1997,
+#: from memory; common practice).
+WATER_WINDOW_PPM = 0.15
+WATER_MAX_WIDTH_HZ = 10.0
+
+
+def _water_line(spectrum: Spectrum, table_ppm: float, noise: float) -> float | None:
+    """Shift of the water singlet near its table position, or None when no singlet stands there.
+
+    A line of a multiplet has partners at the coupling constant; water has none. The
+    singlet must be sharp enough, isolated within 8 Hz and clear of the noise.
+    """
+    from nmrcheck.processing.reference import find_peak
+
+    return find_peak(spectrum, table_ppm, window_ppm=WATER_WINDOW_PPM, min_snr=10.0,
+                     max_width_hz=WATER_MAX_WIDTH_HZ, isolated_hz=8.0)
+
+
+def _flag(start, end, peak, signals, reference_name, exclude_ppm, tol, mhz, *, water_modelled=False):
     width_ppm = start - end
     for lo, hi in exclude_ppm:
         if min(lo, hi) <= peak <= max(lo, hi):
@@ -353,7 +385,10 @@ def _flag(start, end, peak, signals, reference_name, exclude_ppm, tol, mhz):
             continue
         if sig.kind == "residual" and abs(peak - sig.ppm) <= tol:
             return "solvent", sig.name
-        if sig.kind == "water" and abs(peak - sig.ppm) <= 0.15:
+        # Unmodelled water: only a narrow region at the water position is taken for it; a
+        # broad one there is an analyte multiplet (water was modelled when it was a singlet).
+        if sig.kind == "water" and not water_modelled and abs(peak - sig.ppm) <= WATER_WINDOW_PPM and (
+                sig.solvent in AQUEOUS or width_ppm * mhz <= 25.0):
             return "water", sig.name
         if sig.kind == "reference" and reference_name and sig.name == reference_name and abs(peak - sig.ppm) <= tol:
             return "reference", sig.name

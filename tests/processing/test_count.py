@@ -87,3 +87,19 @@ def test_dss_singlet_and_methylenes_are_never_counted():
         near = [r for r in p.regions if r.peak_ppm is not None and abs(r.peak_ppm - ppm) < 0.05]
         assert near and all(not r.counted for r in near), ppm
     assert p.count.integer_h == 9
+
+
+def test_water_singlet_is_modelled_and_a_multiplet_at_its_place_counted():
+    """Water in CDCl3 is a singlet near 1.56 ppm that wanders by about 0.1 ppm (Gottlieb 1997, from
+    memory): here at 1.62 ppm, beside an analyte CH2 quintet at 1.50 ppm. The singlet is taken out as
+    water; the multiplet, inside the water window, is still counted (2 H of 2+2+3+2 = 9 H)."""
+    lines = [Line(7.30, 2.0, 1.0, (8.0,)), Line(4.10, 2.0, 1.0, (7.0, 7.0)), Line(2.30, 3.0, 1.0),
+             Line(1.50, 2.0, 1.0, (7.0, 7.0, 7.0, 7.0)), Line(1.62, 1.5, 2.0), Line(7.26, 0.05, 0.8)]
+    fid = simulate_fid(lines, spectrometer_mhz=500.0, sweep_width_hz=6000.0, points=32768, carrier_ppm=5.0,
+                       noise=2e-4, seed=9)
+    p = process(fid, solvent="CDCl3")
+    water = [r for r in p.regions if r.flag == "water"]
+    assert water and abs(water[0].peak_ppm - 1.62) < 0.01
+    quintet = [r for r in p.regions if r.counted and r.peak_ppm is not None and abs(r.peak_ppm - 1.50) < 0.03]
+    assert quintet and quintet[0].h == pytest.approx(2.0, abs=0.2)
+    assert p.count.integer_h == 9
