@@ -257,7 +257,8 @@ def _triage_list(lines: list[WellLine], *, empty: str, purity: bool, kind: str) 
     items = []
     for ln in lines:
         what = ln.concern or ln.next_step or ln.verdict
-        act = _activity_cell(ln)
+        # Only hits are named in the lists (a line of 'inactive' would bury them); the table has every readout.
+        act = _activity_cell(ln) if ln.activity is not None and ln.activity.active else ""
         items.append(
             f'<li data-well="{escape(ln.well)}"><a href="#well-{escape(ln.well)}"><b>{escape(ln.well)}</b></a>'
             f'<span title="{escape(ln.formula)}">{escape(ln.name or "–")}</span>'

@@ -154,7 +154,7 @@ def assayed_report(screened_plate, tmp_path_factory):
         writer = csv.DictWriter(fh, fieldnames=list(rows[0]))
         writer.writeheader()
         writer.writerows(rows)
-    report = write_plate_report(out, title="Test plate", assay=assay)
+    report = write_plate_report(out, title="Calyxia nocturna (fictional) extract - fractions 1-24", subtitle="invented demo plate, synthetic spectra, invented assay", assay=assay)
     return manifest, out, report
 
 
