@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import contextlib
 import functools
 import logging
 import sys
@@ -68,8 +69,9 @@ def _debug_requested(ctx: click.Context | None) -> bool:
 class GuardedGroup(click.Group):
     """The top-level command group: no exception reaches the user as a traceback.
 
-    nmrcheck's own errors and OS errors (a full or read-only disk, a missing folder) become
-    ``nmrcheck: <file>: <problem>`` and exit status 2; anything unexpected becomes one line
+    nmrcheck's own errors and failures of the machine (a full or read-only disk, a missing
+    folder, a results database that cannot be written) become ``nmrcheck: <file>: <problem>``
+    and exit status 2; anything unexpected becomes one line
     ``nmrcheck: internal error ...`` with exit status 3 and a hint to rerun with ``--debug``,
     which shows the traceback.
     """
@@ -84,10 +86,19 @@ class GuardedGroup(click.Group):
         except KeyboardInterrupt:
             click.echo("nmrcheck: interrupted", err=True)
             ctx.exit(130)
+        except BrokenPipeError:
+            # The reader of our output went away (e.g. `| head`): nothing more to say to it.
+            import os
+
+            devnull = os.open(os.devnull, os.O_WRONLY)
+            os.dup2(devnull, sys.stdout.fileno())
+            ctx.exit(141)
         except Exception as exc:  # noqa: BLE001 - the one place every failure is turned into a line
+            from nmrcheck.errors import environment_problem
+
             if _debug_requested(ctx):
                 raise
-            if isinstance(exc, (NmrcheckError, OSError)):
+            if isinstance(exc, NmrcheckError) or environment_problem(exc) is not None:
                 _echo_error(f"nmrcheck: {human_message(exc)}")
                 ctx.exit(2)
             if isinstance(exc, MemoryError):
@@ -95,6 +106,17 @@ class GuardedGroup(click.Group):
                 ctx.exit(3)
             _echo_error(f"nmrcheck: {human_message(exc)}; rerun with --debug (or NMRCHECK_DEBUG=1) to see the traceback, and please report it")
             ctx.exit(3)
+
+
+@contextlib.contextmanager
+def writing(path):
+    """Name ``path`` in an OS error raised while writing it (a write() on a full disk names no file)."""
+    try:
+        yield
+    except OSError as exc:
+        if exc.filename is None:
+            exc.filename = str(path)
+        raise
 
 
 def _echo_error(line: str) -> None:
@@ -234,6 +256,10 @@ def process_command(path, as_json, size, lb_hz, solvent, phase, anchor_h, save_s
     options = ProcessingOptions(lb_hz=lb_hz, size=size, solvent=solvent, phase=_phase_option(phase), anchor_h=anchor_h)
     _output_file("--plot", plot_path)
     _output_file("--save-spectrum", save_spectrum)
+    if save_spectrum and not save_spectrum.endswith(".npz"):
+        from nmrcheck.errors import ParameterError
+
+        raise ParameterError(f"--save-spectrum: {save_spectrum} must end in .npz")
     processed = process(path, options)
     summary = processed_summary(processed)
     summary["options"] = options.as_dict()
@@ -243,11 +269,13 @@ def process_command(path, as_json, size, lb_hz, solvent, phase, anchor_h, save_s
     if save_spectrum:
         from nmrcheck.io.arrays import save_spectrum_npz
 
-        save_spectrum_npz(save_spectrum, ppm=processed.spectrum.ppm, data=processed.spectrum.data)
+        with writing(save_spectrum):
+            save_spectrum_npz(save_spectrum, ppm=processed.spectrum.ppm, data=processed.spectrum.data)
     if plot_path:
         from nmrcheck.report.spectrum_plot import plot_processed
 
-        plot_processed(processed, plot_path)
+        with writing(plot_path):
+            plot_processed(processed, plot_path)
     if as_json:
         click.echo(json.dumps(summary, indent=2))
     else:
@@ -367,7 +395,8 @@ def plate_run(manifest, out_dir, workers, well_timeout, well_memory, watch, time
     if not no_report:
         from nmrcheck.report.plate_report import write_plate_report
 
-        report = write_plate_report(out_dir, assay=assay_path)
+        with writing(out_dir):
+            report = write_plate_report(out_dir, assay=assay_path)
         click.echo(f"report: {report}")
     click.echo(summary.describe())
 
@@ -411,7 +440,9 @@ def plate_report(out_dir, title, assay_path) -> None:
     """Write report.html, results.csv, results.json and NMReDATA records from the results in OUT_DIR."""
     from nmrcheck.report.plate_report import write_plate_report
 
-    click.echo(f"report: {write_plate_report(out_dir, title=title, assay=assay_path)}")
+    with writing(out_dir):
+        report = write_plate_report(out_dir, title=title, assay=assay_path)
+    click.echo(f"report: {report}")
 
 
 # --- demo -----------------------------------------------------------------------------------
@@ -548,7 +579,8 @@ def check_command(spectrum, formulas, smiles, candidates_file, mz, ion, ppm_tol,
     if plot_path:
         from nmrcheck.report.check_plot import plot_check
 
-        plot_check(processed, verdicts, plot_path)
+        with writing(plot_path):
+            plot_check(processed, verdicts, plot_path)
     amounts = None
     if quant.requested:
         amount = quant.amount(processed)

@@ -103,6 +103,9 @@ def human_message(exc: BaseException) -> str:
         return _first_line(str(exc)) or "error"
     if isinstance(exc, MemoryError):
         return "not enough memory for this recording or option (out of memory)"
+    database = None if isinstance(exc, OSError) else environment_problem(exc)
+    if database is not None:
+        return database
     if isinstance(exc, OSError):
         code = errno.errorcode.get(exc.errno or -1, "")
         problem = _OS_PROBLEMS.get(code) or (exc.strerror or _first_line(str(exc)) or "operating-system error")
@@ -115,3 +118,25 @@ def human_message(exc: BaseException) -> str:
 
 class OutputError(NmrcheckError):
     """An output folder or file cannot be written (disk full, read-only, in use by another run); names it."""
+
+
+# What SQLite says when the disk, not the program, is the problem (its errors are not OSErrors).
+_DATABASE_PROBLEMS = (
+    ("disk is full", "the disk is full (results database)"),
+    ("readonly database", "the results database cannot be written (read-only file system or file)"),
+    ("unable to open database", "the results database cannot be opened (missing folder or no permission)"),
+    ("disk i/o error", "input/output error writing the results database (a failing disk or network share?)"),
+    ("database is locked", "the results database is locked by another process"),
+)
+
+
+def environment_problem(exc: BaseException) -> str | None:
+    """Words for a failure of the machine rather than of nmrcheck or its input (a full or read-only disk), else None."""
+    if isinstance(exc, OSError):
+        return human_message(exc)
+    if type(exc).__module__ == "sqlite3" or type(exc).__name__ in ("OperationalError", "DatabaseError"):
+        text = str(exc).lower()
+        for fragment, words in _DATABASE_PROBLEMS:
+            if fragment in text:
+                return words
+    return None

@@ -117,6 +117,33 @@ def test_disk_errors_are_one_line(experiment, tmp_path, monkeypatch, code, words
     assert str(target) in message and words in message
 
 
+@pytest.mark.skipif(not os.path.exists("/dev/full"), reason="no /dev/full (a device whose writes always fail with 'no space left') on this system")
+def test_really_full_disk_is_one_line(experiment):
+    """Writing the plot to /dev/full fails as a full disk does (ENOSPC), for real."""
+    message = _one_line_error(CliRunner().invoke(main, ["process", str(experiment), "--plot", "/dev/full"]))
+    assert message == "nmrcheck: /dev/full: the disk is full"
+
+
+def test_export_name_checked_before_processing(experiment, tmp_path, monkeypatch):
+    _raise_in_process(monkeypatch, AssertionError("processing must not start"))
+    message = _one_line_error(CliRunner().invoke(main, ["process", str(experiment), "--save-spectrum", str(tmp_path / "s.txt")]))
+    assert "--save-spectrum" in message and ".npz" in message
+
+
+def test_full_disk_under_the_results_database_is_one_line(experiment, monkeypatch):
+    import sqlite3
+
+    _raise_in_process(monkeypatch, sqlite3.OperationalError("database or disk is full"))
+    message = _one_line_error(CliRunner().invoke(main, ["process", str(experiment)]))
+    assert message == "nmrcheck: the disk is full (results database)"
+
+
+def test_closed_output_pipe_is_quiet(tmp_path, experiment):
+    """`nmrcheck process ... --json | head -1`: the broken pipe ends the run quietly, without a traceback."""
+    proc = subprocess.run(f"{sys.executable} -m nmrcheck process {experiment} --json | head -c 1", shell=True, capture_output=True, text=True, timeout=60)
+    assert "Traceback" not in proc.stderr and "Error" not in proc.stderr, proc.stderr
+
+
 # --- hangs and runaway memory: real subprocesses under limits --------------------------------
 
 _LIMIT_BYTES = 3 * 1024**3

@@ -33,3 +33,10 @@ def test_unexpected_errors_in_words_without_the_type_name():
     assert "LinAlgError" not in text
     assert human_message(ValueError("line one\nline two")) == "internal error (an invalid value): line one"
     assert human_message(MemoryError()).startswith("not enough memory")
+
+
+def test_database_on_a_full_disk_in_words():
+    import sqlite3
+
+    assert human_message(sqlite3.OperationalError("database or disk is full")) == "the disk is full (results database)"
+    assert "read-only" in human_message(sqlite3.OperationalError("attempt to write a readonly database"))
