@@ -93,7 +93,7 @@ def test_read_only_folder_gives_one_line(small_plate, small_disk):
     out = small_disk / "out"
     run_plate(read_manifest(manifest), out, executor=InlineExecutor())
     subprocess.run(["mount", "-o", "remount,ro", str(small_disk)], check=True)
-    for args in (["plate", "run", str(manifest), "--out", str(out), "--redo"], ["plate", "run", str(manifest), "--out", str(small_disk / "new")], ["plate", "report", str(out)]):
+    for args in (["plate", "run", str(manifest), "--out", str(out), "--redo"], ["plate", "run", str(manifest), "--out", str(small_disk / "new")], ["plate", "report", str(out)], ["demo", "--out", str(small_disk / "demo")]):
         result = CliRunner().invoke(main, args)
         assert result.exit_code == 2, (args, result.output)
         assert result.output.startswith("nmrcheck: ") and result.output.count("\n") == 1, result.output
