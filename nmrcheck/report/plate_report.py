@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import logging
 import os
+import re
 import time
 from html import escape
 from pathlib import Path
@@ -55,7 +56,7 @@ h1{font-size:1.35em;margin:.1em 0} h2{font-size:1.08em;margin:1.1em 0 .35em;padd
 .legend li{display:flex;align-items:center;gap:.25em}
 .tally span{display:inline-block;margin-right:.8em;font-size:.9em}
 ol.triage{list-style:none;margin:0;padding:0}
-ol.triage li{display:grid;grid-template-columns:3.2em minmax(8em,15em) 7.6em 6.2em 4.2em 1fr;gap:.5em;padding:.16em .3em;border-bottom:1px solid var(--line);align-items:baseline;white-space:nowrap}
+ol.triage li{display:grid;grid-template-columns:3.2em minmax(8em,14em) 7.6em 6.8em 4.2em 1fr;gap:.5em;padding:.16em .3em;border-bottom:1px solid var(--line);align-items:baseline;white-space:nowrap}
 ol.triage.nopurity li{grid-template-columns:3.2em minmax(8em,15em) 7.6em 4.2em 1fr}
 ol.triage li > *{overflow:hidden;text-overflow:ellipsis}
 ol.triage li:hover{background:var(--panel)}
@@ -251,6 +252,17 @@ def _activity_cell(line: WellLine) -> str:
     return f'<span{cls} title="{escape(tip)}">{escape(text)}</span>'
 
 
+def _short_purity(text: str) -> str:
+    """'single', 'major, ~85 %' or 'mixture' for the narrow column of the triage lists."""
+    low = text.lower()
+    if low.startswith("single"):
+        return "single"
+    if low.startswith("major"):
+        pct = re.search(r"(\d+)\s*%", text)
+        return f"major, ~{pct.group(1)} %" if pct else "major"
+    return text
+
+
 def _triage_list(lines: list[WellLine], *, empty: str, purity: bool, kind: str) -> str:
     if not lines:
         return f'<p class="muted">{escape(empty)}</p>'
@@ -263,7 +275,7 @@ def _triage_list(lines: list[WellLine], *, empty: str, purity: bool, kind: str) 
             f'<li data-well="{escape(ln.well)}"><a href="#well-{escape(ln.well)}"><b>{escape(ln.well)}</b></a>'
             f'<span title="{escape(ln.formula)}">{escape(ln.name or "–")}</span>'
             f"<span>{_badge(ln.verdict)}</span>"
-            + (f'<span class="small">{_tip(ln.purity or "purity –", "purity call of the validation" if ln.purity else "no purity call")}</span>' if purity else "")
+            + (f'<span class="small">{_tip(_short_purity(ln.purity) or "purity –", ln.purity or ln.purity_detail or ("purity call of the validation" if ln.purity else "no purity call"))}</span>' if purity else "")
             + f'<span class="num">{_tip(ln.amount or "–", ln.amount_detail)}</span>'
             f'<span class="why"><span class="concern">{escape(what)}</span> {act} {_tip(ln.reason, ln.reason_detail)}</span></li>'
         )
@@ -311,7 +323,7 @@ def _table(lines: dict[str, WellLine], names: list[str], pending: set[str]) -> s
             "Well": f'<td data-sort="{_well_sort_key(w)}"><a href="#well-{escape(w)}">{escape(w)}</a></td>',
             "Best candidate": f'<td title="{escape(ln.formula)}">{escape(ln.name)}</td>',
             "Verdict": f'<td data-sort="{rank.get(ln.verdict, 99)}">{_badge(ln.verdict)}</td>',
-            "Purity": f"<td>{escape(ln.purity)}</td>",
+            "Purity": f"<td>{_tip(ln.purity, ln.purity_detail)}</td>",
             "H (as judged)": f'<td class="num" data-sort="{escape(count_sort)}">{_tip(ln.count, ln.count_detail)}</td>',
             "Amount": f'<td class="num" data-sort="{"" if ln.amount_ug is None else f"{ln.amount_ug:.6g}"}">{_tip(ln.amount, ln.amount_detail)}</td>',
             "Bioassay": f'<td class="num" data-sort="{act_sort}">{_activity_cell(ln)}</td>',
@@ -421,7 +433,7 @@ def _well_section(result: WellResult, line: WellLine, index: int, history_len: i
     if line.count:
         pairs.append(("Protons", escape(f"{line.count} ({line.count_detail})" if line.count_detail else line.count)))
     if line.purity:
-        pairs.append(("Purity", escape(line.purity)))
+        pairs.append(("Purity", escape(line.purity + (f" ({line.purity_detail})" if line.purity_detail else ""))))
     if line.amount_detail:
         pairs.append(("Amount", escape(line.amount_detail)))
     if line.next_step:

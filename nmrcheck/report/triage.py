@@ -85,6 +85,8 @@ class WellLine:
     smiles: str
     """The best candidate's structure ('' when only a formula is known)."""
     purity: str
+    purity_detail: str
+    """The evidence behind the purity call (tooltip)."""
     amount_ug: float | None
     amount: str
     """'3.2 µg' (or nmol when no molar mass), '' when not quantified."""
@@ -159,19 +161,20 @@ def _candidate_name(result: WellResult, check: Mapping[str, Any] | None) -> tupl
     return "", formula, ""
 
 
-def _purity(result: WellResult) -> tuple[str, bool]:
-    """(text, is a mixture) from the purity call, when the validation made one."""
+def _purity(result: WellResult) -> tuple[str, bool, str]:
+    """(call as shown, is a mixture, its evidence) from the validation's purity record, when it made one."""
     p = _get(result, "purity")
     if not p:
-        return "", False
+        return "", False, ""
     if isinstance(p, Mapping):
-        text = str(p.get("call") or p.get("label") or p.get("verdict") or "")
-        pct = next((p[k] for k in ("impurity_pct", "impurities_pct", "about_pct", "minor_pct") if isinstance(p.get(k), (int, float))), None)
+        call = str(p.get("call") or "")
+        text = str(p.get("label") or call or p.get("verdict") or "")
+        pct = next((p[k] for k in ("share_pct", "main_mol_pct", "about_pct") if isinstance(p.get(k), (int, float))), None)
         if pct is not None and "%" not in text and text.startswith("major"):
             text = f"{text} (about {float(pct):.0f} %)"
-    else:
-        text = str(p)
-    return text, "mixture" in text.lower()
+        evidence = "; ".join(str(e) for e in p.get("evidence") or [])
+        return text, "mixture" in (call or text).lower(), evidence
+    return str(p), "mixture" in str(p).lower(), ""
 
 
 def _known(result: WellResult) -> str:
@@ -309,7 +312,7 @@ def well_line(result: WellResult, activity: AssayReadout | None = None) -> WellL
     """The triage line of one well."""
     check = best_check(result)
     name, formula, smiles = _candidate_name(result, check)
-    purity, mixture = _purity(result)
+    purity, mixture, purity_detail = _purity(result)
     amount, amount_ug, amount_detail = format_amount(result.amount)
     count, count_detail, ambiguous = _count(result, check)
     next_text, next_detail, decision = _next_step(result)
@@ -363,6 +366,7 @@ def well_line(result: WellResult, activity: AssayReadout | None = None) -> WellL
         formula=formula,
         smiles=smiles,
         purity=purity,
+        purity_detail=purity_detail,
         amount_ug=amount_ug,
         amount=amount,
         amount_detail=amount_detail,

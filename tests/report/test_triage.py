@@ -58,9 +58,10 @@ def test_active_wells_lead_each_list():
 
 def test_purity_and_known_fields_shown_when_present():
     r = _result(verdict="consistent")
-    object.__setattr__(r, "purity", {"call": "major compound with impurities", "impurity_pct": 12.0})
+    # As the validation writes it (nmrcheck.validate.purity, as_dict: call, label, share_pct, evidence).
+    object.__setattr__(r, "purity", {"call": "major compound with impurities", "share_pct": 85.0, "evidence": ["2 residual signal sets"]})
     line = well_line(r)
-    assert line.purity == "major compound with impurities (about 12 %)"
+    assert line.purity == "major compound with impurities (about 85 %)" and line.purity_detail == "2 residual signal sets"
     object.__setattr__(r, "purity", "mixture")
     assert well_line(r).concern == "mixture"
 
