@@ -31,7 +31,13 @@ def read_pyteomics(path):
 
 
 def read_pymzml(path):
-    import pymzml
+    import logging
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ImportWarning)
+        import pymzml.run
+    logging.getLogger("pymzml").setLevel(logging.ERROR)
 
     out = []
     run = pymzml.run.Reader(str(path), build_index_from_scratch=False)

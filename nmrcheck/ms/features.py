@@ -607,8 +607,12 @@ def _well_features(all_scans, window: FractionWindow, start: float, end: float, 
     features: list[LcmsFeature] = []
     tics: dict[str, float] = {}
     n_survey = 0
+    # A run that does not record its polarity is taken as positive (the commoner mode), and says so.
+    unknown = any(s.polarity is None for s in all_scans if s.ms_level == 1)
+    if unknown:
+        notes.append("the run does not record the polarity of some survey scans: positive assumed for them")
     for polarity in ("positive", "negative"):
-        scans = [s for s in all_scans if s.ms_level == 1 and s.polarity == polarity and start - options.margin_min <= s.rt_min <= end + options.margin_min]
+        scans = [s for s in all_scans if s.ms_level == 1 and (s.polarity or "positive") == polarity and start - options.margin_min <= s.rt_min <= end + options.margin_min]
         if not scans:
             continue
         scans = [_centroided(s) for s in scans]
@@ -616,7 +620,7 @@ def _well_features(all_scans, window: FractionWindow, start: float, end: float, 
         n_survey += int(in_window.sum())
         if not in_window.any():
             continue
-        ms2 = [s for s in all_scans if s.ms_level > 1 and s.polarity == polarity and start - options.margin_min <= s.rt_min <= end + options.margin_min]
+        ms2 = [s for s in all_scans if s.ms_level > 1 and (s.polarity or "positive") == polarity and start - options.margin_min <= s.rt_min <= end + options.margin_min]
         found, tic = _features_one_polarity(scans, in_window, ms2, polarity, options)
         tics[polarity] = tic
         features.extend(found)

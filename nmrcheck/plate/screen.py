@@ -396,6 +396,9 @@ def screen_well(spec: WellSpec, directory: str, options: ScreenOptions) -> WellR
         "ms_feature": {"ions": [list(f) for f in spec.ms_features], "isotopes": spec.isotopes and list(spec.isotopes), "rt_min": spec.rt_min} if spec.ms_features else None,
         "lcms": dict(spec.lcms) if spec.lcms is not None else None,
     }
+    if base["lcms"] and base["lcms"].get("major_features", 0) > 1:
+        shares = ", ".join(f"{f['share']:.0%}" for f in base["lcms"]["features"] if f["share"] >= base["lcms"]["major_share"])
+        notes.append(f"LC-MS: {base['lcms']['major_features']} major features in this well's window ({shares} of the ion current): it may hold a mixture")
     path: Path | None = None
     try:
         matches = resolve_spectrum(spec, directory)

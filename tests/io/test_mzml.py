@@ -112,3 +112,14 @@ def test_truncated_file_is_an_input_error(tmp_path):
     with pytest.raises(InputFileError) as err:
         read_mzml(path)
     assert "\n" not in str(err.value)
+
+
+def test_written_file_is_valid_against_the_mzml_schema(tmp_path):
+    """The PSI mzML 1.1.0 XML schema (as shipped with psims) accepts what write_mzml writes."""
+    psims = pytest.importorskip("psims", reason="psims ships the mzML 1.1.0 schema")
+    from lxml import etree
+
+    xsd = Path(psims.__file__).parent / "validation" / "xsd" / "mzML1.1.0.xsd"
+    schema = etree.XMLSchema(etree.parse(str(xsd)))
+    doc = etree.parse(str(write_mzml(tmp_path / "run.mzML", _scans())))
+    assert schema.validate(doc), schema.error_log

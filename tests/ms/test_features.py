@@ -195,3 +195,29 @@ def test_grouping_species_table():
         assert parse_ion(row["notation"]).polarity == row["polarity"]
     assert grouping_species("positive")[0].notation == "[M+H]+"
     assert grouping_species("negative")[0].notation == "[M-H]-"
+
+
+def test_profile_scans_are_centroided_and_unknown_polarity_is_taken_as_positive():
+    """Profile survey scans (Gaussian peaks on a 2 mDa grid) give the same feature as centroids; a run without
+    polarity terms is read as positive, with a note."""
+    import numpy as np
+
+    from nmrcheck.io.mzml import LcmsRun, Scan
+
+    want = molmass.Formula("[C15H11O5]+").monoisotopic_mass
+    iso = _isotopes("[C15H11O5]+", 3)
+    grid = np.arange(250.0, 300.0, 0.002)
+    scans = []
+    for k in range(60):
+        t = 0.5 + k / 120.0
+        height = 1e6 * np.exp(-0.5 * ((t - 0.75) / 0.03) ** 2)
+        y = np.zeros_like(grid)
+        for j, rel in enumerate(iso):
+            y += height * rel / 100.0 * np.exp(-0.5 * ((grid - (want + j * 1.003355)) / 0.004) ** 2)
+        scans.append(Scan(k, f"scan={k + 1}", t, 1, None, grid, y + 50.0, False))
+    run = LcmsRun("profile", tuple(scans))
+    result = well_features(run, FractionWindow("A1", 0.6, 0.9))
+    f = result.features[0]
+    assert f.main_ion.mz == pytest.approx(want, rel=3e-6)
+    assert f.main_ion.isotopes[1] == pytest.approx(iso[1], abs=2.0)
+    assert f.polarity == "positive" and "positive assumed" in result.notes[0]
