@@ -8,6 +8,7 @@ with one line naming the folder and the holder.
 
 from __future__ import annotations
 
+import logging
 import os
 import socket
 import time
@@ -22,6 +23,8 @@ except ImportError:  # pragma: no cover - not POSIX
     fcntl = None  # type: ignore[assignment]
 
 __all__ = ["LOCK_NAME", "OutputLock"]
+
+log = logging.getLogger("nmrcheck")
 
 LOCK_NAME = "run.lock"
 
@@ -56,6 +59,9 @@ class OutputLock:
                 holder = _read_holder(fd)
                 os.close(fd)
                 raise OutputError(f"{self.folder}: another 'plate run' is using this folder ({holder}); wait for it to end or stop it") from None
+            except OSError as exc:
+                # A file system without locks (some network shares): run, but say so.
+                log.warning("%s: cannot lock the folder (%s); make sure no other run uses it", self.folder, describe_os_error(exc))
         try:
             # Best effort: the lock itself is the flock; the text only names the holder.
             os.ftruncate(fd, 0)
@@ -72,7 +78,10 @@ class OutputLock:
         except OSError:
             pass
         if fcntl is not None:
-            fcntl.flock(self.fd, fcntl.LOCK_UN)
+            try:
+                fcntl.flock(self.fd, fcntl.LOCK_UN)
+            except OSError:
+                pass  # never locked (see acquire); closing is all there is to do
         os.close(self.fd)
         self.fd = None
 

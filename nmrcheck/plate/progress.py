@@ -38,8 +38,11 @@ class LogProgress(Progress):
         self._last_wait = 0.0
 
     def _line(self, text: str) -> None:
-        self.stream.write(time.strftime("%Y-%m-%d %H:%M:%S ") + text + "\n")
-        self.stream.flush()
+        try:
+            self.stream.write(time.strftime("%Y-%m-%d %H:%M:%S ") + text + "\n")
+            self.stream.flush()
+        except (OSError, ValueError):
+            pass  # a full disk or closed log must not stop the plate: the results database is the record
 
     def start(self, *, total: int, skipped: int, watch: bool) -> None:
         mode = "watching for recordings" if watch else "screening"
@@ -77,13 +80,19 @@ class BarProgress(Progress):
         elapsed = time.monotonic() - self._started
         wait = f", waiting for {self._pending}" if self._pending else ""
         text = f"\r[{'#' * filled}{'.' * (self.width - filled)}] {self._done}/{self._total} wells, {elapsed:.0f} s{wait} {self._last}"
-        self.stream.write(text.ljust(100)[:120])
-        self.stream.flush()
+        self._write(text.ljust(100)[:120])
+
+    def _write(self, text: str) -> None:
+        try:
+            self.stream.write(text)
+            self.stream.flush()
+        except (OSError, ValueError):
+            pass  # a closed terminal must not stop the plate
 
     def start(self, *, total: int, skipped: int, watch: bool) -> None:
         self._total = total
         if skipped:
-            self.stream.write(f"{skipped} well(s) already done; resuming\n")
+            self._write(f"{skipped} well(s) already done; resuming\n")
         self._draw()
 
     def waiting(self, pending: int) -> None:
@@ -96,8 +105,7 @@ class BarProgress(Progress):
         self._draw()
 
     def finish(self, summary) -> None:
-        self.stream.write("\n" + summary.describe() + "\n")
-        self.stream.flush()
+        self._write("\n" + summary.describe() + "\n")
 
 
 def progress_for(stream: TextIO | None = None) -> Progress:

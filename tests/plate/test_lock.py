@@ -65,3 +65,4 @@ def test_two_runs_on_one_folder(small_plate, tmp_path):
     with ResultsStore(out) as store:
         assert store.count_history() == len(WELLS)
         assert [r.status for r in store.runs()] == ["complete"]
+
