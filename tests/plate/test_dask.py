@@ -42,7 +42,7 @@ def test_several_plates_on_the_cluster_match_the_local_run(client, small_plate, 
 
 
 def test_a_worker_killed_mid_run_loses_nothing(client, small_plate, tmp_path):
-    manifest = read_manifest(small_plate(tuple(f"{r}{c}" for r in "AB" for c in range(1, 7)), points=16384))
+    manifest = read_manifest(small_plate(tuple(f"{r}{c}" for r in "ABC" for c in range(1, 9)), points=16384))
     out = tmp_path / "out"
     pids = client.run(os.getpid)
     killed = []
@@ -59,16 +59,32 @@ def test_a_worker_killed_mid_run_loses_nothing(client, small_plate, tmp_path):
             time.sleep(0.02)
         pid = next(iter(pids.values()))
         os.kill(pid, signal.SIGKILL)
-        killed.append(pid)
+        with ResultsStore(out) as store:
+            killed.append((pid, store.count_history()))
 
     killer = threading.Thread(target=kill_one_when_started)
     killer.start()
     summary = run_plate(manifest, out, executor=client.get_executor(pure=False))
     killer.join()
     assert killed, "no worker was killed"
+    assert killed[0][1] < len(manifest.wells) - 2, "the worker was killed after the plate was nearly done"
     assert summary.status == "complete"
     with ResultsStore(out) as store:
         current = store.current()
         assert store.count_history() == len(manifest.wells), "a well was lost or screened twice"
     # The well in flight on the killed worker was retried elsewhere, not recorded as failed.
     assert all(r.status == "done" for r in current.values()), {w: r.error for w, r in current.items() if r.status != "done"}
+
+
+def test_command_line_points_at_a_scheduler(client, small_plate, tmp_path):
+    """`plate run --scheduler ADDRESS` screens on that cluster (the address a lab gives for its own)."""
+    from click.testing import CliRunner
+
+    from nmrcheck.cli import main
+
+    manifest = small_plate(PLATE_WELLS)
+    result = CliRunner().invoke(main, ["plate", "run", str(manifest), "--out", str(tmp_path / "out"), "--no-report", "--scheduler", client.scheduler.address])
+    assert result.exit_code == 0, result.output
+    with ResultsStore(tmp_path / "out") as store:
+        assert store.count_history() == len(PLATE_WELLS)
+        assert all(r.status == "done" for r in store.current().values())
