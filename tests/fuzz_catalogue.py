@@ -249,6 +249,7 @@ BRUKER: tuple[BadInput, ...] = (
     BadInput("fid of zero bytes", "traceback", "refuse", _fid_bytes(lambda r: b""), "empty"),
     BadInput("fid of one repeated word", "traceback", "refuse", _fid_bytes(lambda r: b"\x01\x02\x03\x04" * (len(r) // 4)), "repeated"),
     BadInput("fid of 0xFF bytes", "silently wrong", "refuse", _fid_bytes(lambda r: b"\xff" * len(r)), "fid"),
+    BadInput("fid of a repeated 32-byte pattern", "silently wrong", "refuse", _fid_bytes(lambda r: (bytes(range(7, 39)) * (len(r) // 32 + 1))[: len(r)]), "distinct values"),
     BadInput("fid of zeros", "traceback", "refuse", _fid_bytes(lambda r: bytes(len(r))), "only zeros"),
     BadInput("NaN in the fid", "traceback", "refuse", _float_fid_with(float("nan")), "not finite"),
     BadInput("inf in the fid", "traceback", "refuse", _float_fid_with(float("inf")), "not finite"),

@@ -44,6 +44,8 @@ MAX_GROUP_DELAY_POINTS = 1000.0
 #: scaling a few powers of two more; 1e30 is far beyond any recording and far below the values
 #: whose squares overflow in processing.
 MAX_POINT_MAGNITUDE = 1e30
+#: Data with this many distinct values or fewer (over 64 points or more) are a repeated pattern.
+MAX_PATTERN_VALUES = 8
 
 
 def _as_float(value: Any) -> float | None:
@@ -101,3 +103,9 @@ def check_points(source: str, data: np.ndarray, what: str = "the data") -> None:
     flat = data.ravel()
     if np.all(flat == flat[0]):
         raise InputFileError(source, f"{what} holds one value repeated at every point ({flat[0]:g}); no signal was recorded")
+    if flat.size >= 64:
+        # A short byte pattern repeated over the file (a filler, a copy gone wrong) gives a handful
+        # of values; a recording, even of pure noise, gives thousands.
+        distinct = np.unique(flat[: 1 << 16]).size
+        if distinct <= MAX_PATTERN_VALUES:
+            raise InputFileError(source, f"{what} holds only {distinct} distinct values repeated over {flat.size} points; no signal was recorded")
