@@ -289,6 +289,7 @@ PDATA: tuple[BadInput, ...] = (
     BadInput("SF=nan", "traceback", "refuse", _pdata(_param("SF", "nan", "procs")), "SF"),
     BadInput("SI=1e308", "memory", "refuse", _pdata(_param("SI", "1e308", "procs")), "SI"),
     BadInput("SW_p=-1", "traceback", "refuse", _pdata(_param("SW_p", "-1", "procs")), "SW_p"),
+    BadInput("SF 10 % off BF1", "silently wrong", "refuse", _pdata(_param("SF", "540.2", "procs")), "SF"),
     BadInput("procs cut inside <...>", "hang", "refuse", _pdata(lambda d: (d / "procs").write_bytes((d / "procs").read_bytes().split(b"##$AUNMP= <")[0] + b"##$AUNMP= <pro")), "AUNMP"),
     BadInput("1r of zeros", "traceback", "refuse", _pdata(_file_bytes("1r", lambda r: bytes(len(r)))), "zeros"),
 )

@@ -145,6 +145,8 @@ _DUP = {c: i + 1 for i, c in enumerate("STUVWXYZs")}
 _PSEUDO = set(_SQZ) | set(_DIF) | set(_DUP)
 _FIRST = re.compile(r"\s*([+-]?(?:\d+\.?\d*|\.\d+)(?:[Ee][+-]\d+)?)")
 _AFFN = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[Ee][+-]?\d+)?")
+# Inside a compressed line E and e are pseudo-digits, never exponents.
+_PAC = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)")
 _COMPRESSED = re.compile(r"[@A-DF-IJ-Za-df-ij-rs%]|[Ee](?![+-])")
 
 
@@ -215,7 +217,7 @@ def _decode_line(lineno: int, text: str, source: str) -> _Line:
                 ys.extend(base + last_value * np.arange(1, count))
         elif c.isdigit() or c in "+-.":
             # PAC or AFFN value inside a compressed line.
-            m2 = _AFFN.match(rest, start)
+            m2 = _PAC.match(rest, start)
             if not m2:
                 raise InputFileError(source, f"line {lineno}: malformed value near {rest[start:start + 10]!r}")
             pos = m2.end()
@@ -285,4 +287,7 @@ def decode_table(
             raise InputFileError(source, f"{what}: more points than the {expected_points} announced (from line {lineno} on)")
     if expected_points is not None and len(values) != expected_points:
         raise InputFileError(source, f"{what}: {len(values)} points where {expected_points} are announced (lines missing or extra)")
-    return np.asarray(values, dtype=float)
+    out = np.asarray(values, dtype=float)
+    if not np.all(np.isfinite(out)):
+        raise InputFileError(source, f"{what}: values that are not finite numbers (an exponent out of range?)")
+    return out

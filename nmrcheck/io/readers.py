@@ -578,7 +578,7 @@ def _ntuples_data(path: Path, b: JcampBlock, kind: str) -> tuple[np.ndarray, flo
         if factor == 0:
             raise InputFileError(path, f"##FACTOR of the {name} column is 0")
         y = decode_table(table, source=str(path), first_x=first_x, delta_x=delta, x_factor=x_factor, expected_points=n, what=f"page {table.page or sym} ({name})")
-        channels.append(y * factor)
+        channels.append(_scaled(path, y, factor, f"the {name} page"))
     if channels[0].size != channels[1].size:
         raise InputFileError(path, f"real and imaginary pages differ in length ({channels[0].size}, {channels[1].size})")
     units = _columns(b.get("UNITS"))
@@ -607,7 +607,15 @@ def _xydata(path: Path, b: JcampBlock) -> tuple[np.ndarray, float, float, str]:
     if x_factor == 0 or y_factor == 0:
         raise InputFileError(path, "##XFACTOR or ##YFACTOR is 0")
     y = decode_table(tables[0], source=src, first_x=first_x, delta_x=delta, x_factor=x_factor, expected_points=n, what="XYDATA")
-    return y * y_factor, first_x, last_x, b.get("XUNITS") or ""
+    return _scaled(path, y, y_factor, "XYDATA"), first_x, last_x, b.get("XUNITS") or ""
+
+
+def _scaled(path: Path, values: np.ndarray, factor: float, what: str) -> np.ndarray:
+    """``values * factor``, refused when the product leaves the range of any recording (before it overflows)."""
+    largest = float(np.max(np.abs(values))) if values.size else 0.0
+    if largest * abs(factor) > pl.MAX_POINT_MAGNITUDE:
+        raise InputFileError(path, f"{what}: values up to {largest:.3g} times the factor {factor:.3g} are beyond any recording (corrupt data or factor)")
+    return values * factor
 
 
 def _block_data(path: Path, b: JcampBlock, kind: str) -> tuple[np.ndarray, float, float, str]:
@@ -696,9 +704,9 @@ def _read_bruker_pdata(d: Path) -> SpectrumFile:
     nc = pl.number(source, "NC_proc", procs.get("NC_proc", 0), lo=-64, hi=64, what="intensity scaling exponent")
     kwargs = dict(dtype_code=procs.get("DTYPP"), byte_order=procs.get("BYTORDP"), source=source, dtype_key="DTYPP", order_key="BYTORDP", padding=False)
     real = _bruker_binary(d / "1r", si, what="1r", **kwargs)
-    spec: np.ndarray = real * 2.0**nc
+    spec: np.ndarray = _scaled(d / "1r", real, 2.0**nc, "1r")
     if (d / "1i").exists():
-        spec = spec + 1j * (_bruker_binary(d / "1i", si, what="1i", **kwargs) * 2.0**nc)
+        spec = spec + 1j * _scaled(d / "1i", _bruker_binary(d / "1i", si, what="1i", **kwargs), 2.0**nc, "1i")
     pl.check_points(str(d / "1r"), spec.real, "the spectrum (1r)")
     acq_dir = d.parent.parent
     try:
@@ -710,6 +718,7 @@ def _read_bruker_pdata(d: Path) -> SpectrumFile:
         log.debug("no usable acqus beside %s: %s", d, exc)
         acq = Acquisition(nucleus="1H", spectrometer_mhz=sf, sweep_width_hz=swp, carrier_ppm=offset - swp / sf / 2.0)
         notes.append(f"{d}: no acqus beside the processed data; acquisition details unknown")
+    _check_reference_frequency(source, "SF", sf, acq)
     acq = _with_reference(acq, sf)
     _check_proton(d, acq)
     last = offset - swp / sf * (si - 1) / si
@@ -724,6 +733,13 @@ def _read_bruker_pdata(d: Path) -> SpectrumFile:
         processing={"lb_hz": lb, "size": float(si)},
         notes=tuple(notes),
     )
+
+
+def _check_reference_frequency(source: str, name: str, sf: float, acq: Acquisition) -> None:
+    """The frequency of 0 ppm lies within 1000 ppm of the base frequency (referencing moves it by a few ppm)."""
+    base = acq.base_mhz or acq.spectrometer_mhz
+    if abs(sf / base - 1.0) * 1e6 > pl.MAX_CARRIER_OFFSET_PPM:
+        raise InputFileError(source, f"{name}={sf:g} MHz is {abs(sf / base - 1.0) * 1e6:.4g} ppm from the base frequency {base:g} MHz; they must agree within {pl.MAX_CARRIER_OFFSET_PPM:g} ppm")
 
 
 def _with_reference(acq: Acquisition, sf: float | None) -> Acquisition:
@@ -772,6 +788,7 @@ def _read_jcamp_spectrum(path: Path) -> SpectrumFile:
     centre = (first + last) / 2.0
     carrier = None if p.get("O1") is not None or p.get("BF1") is not None else centre
     acq = _bruker_acquisition(p, _text(b.get("TITLE")), source, notes, sweep_width_hz=width_hz, carrier_ppm=carrier)
+    _check_reference_frequency(source, "$SF", sf, acq)
     _check_proton(path, acq)
     lb = pl.optional_number(_num(p.get("LB")), lo=-1e4, hi=1e4) or 0.0
     return SpectrumFile(
