@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import csv
+
 from click.testing import CliRunner
 
 from nmrcheck.cli import main
@@ -55,9 +57,20 @@ def test_cli_plate_run_and_report(tmp_path):
 
     manifest = build_demo_plate(tmp_path, points=4096, wells=demo_wells()[:6])
     runner = CliRunner()
-    done = runner.invoke(main, ["plate", "run", str(manifest), "--out", str(tmp_path / "out"), "--workers", "1"])
+    # A broken assay file stops the run before any well is screened: one line, exit 2.
+    bad = tmp_path / "bad-assay.csv"
+    bad.write_text("well,value\nA1,high\n", encoding="utf-8")
+    done = runner.invoke(main, ["plate", "run", str(manifest), "--out", str(tmp_path / "out"), "--workers", "1", "--assay", str(bad)])
+    assert done.exit_code == 2 and "line 2, value" in done.output and not (tmp_path / "out" / "results.sqlite").exists()
+    # The demo's invented readouts (plate/assay.csv) joined at the end of the run.
+    assay = manifest.parent / "assay.csv"
+    done = runner.invoke(main, ["plate", "run", str(manifest), "--out", str(tmp_path / "out"), "--workers", "1", "--assay", str(assay)])
     assert done.exit_code == 0, done.output
     assert "6 screened" in done.output
+    with open(tmp_path / "out" / "results.csv", encoding="utf-8", newline="") as fh:
+        active = {r["well"]: r["active"] for r in csv.DictReader(fh)}
+    # A4 holds umbelliferone, a hit of the invented assay (nmrcheck.demo.demo_assay); A1 methyl 4-hydroxybenzoate is not.
+    assert active["A4"] == "yes" and active["A1"] == "no"
     done = runner.invoke(main, ["plate", "report", str(tmp_path / "out")])
     assert done.exit_code == 0 and (tmp_path / "out" / "report.html").is_file()
 
