@@ -6,8 +6,8 @@ For each shared recording the spectrum is computed at the instrument's size and
 line broadening, phased by both methods from the same complex data, and
 measured with the shared tool tools/phase_vs_instrument.py (largest phase error
 at the instrument spectrum's 12 strongest peaks). nmrcheck is given the
-exclusion the processing pipeline passes for presaturated recordings (carrier
-+-0.25 ppm); ACME (nmrglue.proc_autophase.autops(data, 'acme')) has no such
+exclusion the processing pipeline passes for presaturated recordings (the
+suppression zone measured on the spectrum); ACME (nmrglue.proc_autophase.autops(data, 'acme')) has no such
 option and sees the whole spectrum. A 64k-point synthetic FID with known phase
 error is timed too. Times are seconds per spectrum (best of N for nmrcheck,
 one run for ACME, which is slow); 'acme/ours' > 1 means nmrcheck is faster.
@@ -26,9 +26,6 @@ import numpy as np
 
 warnings.filterwarnings("ignore")
 
-SUPPRESSION_HALFWIDTH_PPM = 0.25
-
-
 def _tool(refdata: Path):
     path = refdata.parent / "tools" / "phase_vs_instrument.py"
     spec = importlib.util.spec_from_file_location("phase_vs_instrument", path)
@@ -38,10 +35,9 @@ def _tool(refdata: Path):
 
 
 def _exclusion(spec):
-    if "pr" not in (spec.acquisition.pulse_program or "").lower():
-        return []
-    carrier = spec.first_ppm - spec.step_ppm * spec.size / 2.0
-    return [(carrier - SUPPRESSION_HALFWIDTH_PPM, carrier + SUPPRESSION_HALFWIDTH_PPM)]
+    from nmrcheck.processing.pipeline import phasing_exclusion
+
+    return phasing_exclusion(spec)
 
 
 def _time(fn, repeat: int) -> tuple[float, object]:

@@ -121,14 +121,18 @@ def _suppression_ranges(spectrum: Spectrum, options: ProcessingOptions) -> list[
     return [suppression_zone(spectrum, centre, min_half_ppm=min(0.04, cap), max_half_ppm=cap)]
 
 
-#: Lines this close outside a suppression zone are still distorted by it (partial
-#: saturation, the zone's own sloping foot): they are read but do not steer the phase.
-PHASE_GUARD_PPM = 0.1
-
-
 #: Where analyte signal is looked for when estimating what lies below the detection limit, ppm
 #: (1H shifts of organic compounds; common practice).
 ANALYTE_RANGE_PPM = (0.3, 10.0)
+
+
+def phasing_exclusion(spectrum: Spectrum, options: ProcessingOptions | None = None) -> list[tuple[float, float]]:
+    """Ranges automatic phasing leaves out: the suppression zones measured on the spectrum.
+
+    (A wider guard band was tried and lost: lines just outside the measured zone, such as a
+    sugar's anomeric doublet, are what pins the first-order phase at the high-ppm end.)
+    """
+    return _suppression_ranges(spectrum, options or ProcessingOptions())
 
 
 def _undetected_integral(spectrum: Spectrum, regions, noise: float, exclude) -> tuple[float, float]:
@@ -196,8 +200,7 @@ def process(source: Fid | SpectrumFile | str | os.PathLike, options: ProcessingO
     elif already_phased:
         phase = PhaseCorrection(0.0, 0.0, spec.first_ppm, "as processed by the instrument software")
     else:
-        guard = [(lo - PHASE_GUARD_PPM, hi + PHASE_GUARD_PPM) for lo, hi in exclude]
-        spec, phase = auto_phase(spec, exclude_ppm=guard)
+        spec, phase = auto_phase(spec, exclude_ppm=phasing_exclusion(spec, opts))
         if phase.peaks_used == 0:
             warnings.append("no peak above noise to phase on; spectrum left unphased")
     spec = correct_baseline(spec, method=opts.baseline, smoothness_hz=opts.baseline_smoothness_hz)

@@ -21,6 +21,7 @@ from nmrcheck.errors import ParameterError
 from nmrcheck.io import read_fid
 from nmrcheck.processing import phase as phase_module
 from nmrcheck.processing.phase import apply_phase, auto_phase, signal_groups
+from nmrcheck.processing.pipeline import phasing_exclusion
 from nmrcheck.processing.transform import fourier_transform
 from nmrcheck.synth import Line, simulate_fid
 
@@ -191,9 +192,6 @@ BRUKER = ["aminoacid-mix-d2o-600", "aminoacid-mix-undried-1", "culture-medium-d2
 # The instrument spectrum of 140-67-0 was stored without its imaginary part, so the
 # tool (which compares complex spectra) cannot measure it.
 REAL_ONLY = {"140-67-0"}
-# Half-width around the carrier the processing pipeline leaves out when the pulse
-# program presaturates (ProcessingOptions.suppression_halfwidth_ppm).
-SUPPRESSION_HALFWIDTH_PPM = 0.25
 
 
 def _tool(refdata):
@@ -220,11 +218,8 @@ def test_matches_instrument_phasing(refdata, name):
     instrument, si, lb = tool.instrument_spectrum(str(folder))
     fid = read_fid(folder if name in BRUKER else folder / "1h.fid.dx")
     spec = fourier_transform(fid, lb_hz=lb, size=si)
-    exclude = []
-    if "pr" in (spec.acquisition.pulse_program or "").lower():
-        carrier = spec.first_ppm - spec.step_ppm * spec.size / 2.0
-        exclude = [(carrier - SUPPRESSION_HALFWIDTH_PPM, carrier + SUPPRESSION_HALFWIDTH_PPM)]
-    phased, _ = auto_phase(spec, exclude_ppm=exclude)
+    # The exclusion the processing pipeline itself passes (suppression zone measured on the spectrum).
+    phased, _ = auto_phase(spec, exclude_ppm=phasing_exclusion(spec))
     _, angles, _ = tool.phase_errors(phased.data, instrument, ppm=phased.ppm)
     assert float(np.max(np.abs(angles))) <= 3.0
 
