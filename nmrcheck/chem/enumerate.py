@@ -12,8 +12,10 @@ against brute force).
 
 from __future__ import annotations
 
+import hashlib
 import math
 import re
+import time
 from collections.abc import Mapping
 from dataclasses import dataclass, replace
 from functools import lru_cache
@@ -322,19 +324,93 @@ def _sorted_group(columns, counts, bounds) -> _Group:
     parity = (counts.astype(np.int64) @ odd) % 2 if columns else np.zeros(counts.shape[0], dtype=np.int64)
     order = np.lexsort((masses, parity))
     counts = np.ascontiguousarray(counts[order])
-    masses = np.ascontiguousarray(masses[order])
     n_even = int(np.count_nonzero(parity == 0))
+    return _group_of_sorted(tuple(columns), counts, bounds, (0, n_even, counts.shape[0]))
+
+
+def _group_of_sorted(columns, counts, bounds, parity_start) -> _Group:
+    """A group from counts already sorted by (parity, mass); masses and weights recomputed exactly as when sorting."""
+    symbols = [bounds[i][0] for i in columns]
+    masses = counts @ np.array([element(s).monoisotopic_mass for s in symbols]) if columns else np.zeros(counts.shape[0])
+    masses = np.ascontiguousarray(masses)
     valence = np.array([element(s).valence - 2 for s in symbols], dtype=np.int32)
     weights = counts.astype(np.int32) @ valence if columns else np.zeros(counts.shape[0], dtype=np.int32)
     # Cached and shared between queries: nobody may write into them.
     for array in (counts, masses, weights):
         array.setflags(write=False)
-    return _Group(tuple(columns), counts, masses, (0, n_even, counts.shape[0]), weights)
+    return _Group(tuple(columns), counts, masses, tuple(parity_start), weights)
+
+
+_TABLE_FORMAT = "1"
+_SAVE_AFTER_S = 0.1  # tables that build faster than this are not worth a file
 
 
 # A few tens of MB each: enough entries for the mass ranges of a plate, not more.
 @lru_cache(maxsize=8)
 def _groups(bounds, pruning: Pruning, cap: float) -> tuple[_Group, _Group]:
+    """The sorted group tables: from memory, else from the user's disk cache, else built (and cached on disk).
+
+    Building the tables of a large mass range takes about a second; loading them a tenth of
+    that. The cache file is named by a hash of everything the tables depend on (element
+    ranges and masses, pruning, mass cap, file format), written to a temporary file and
+    moved into place, and rebuilt whenever it cannot be read.
+    """
+    folder = _table_cache()
+    path = None
+    if folder is not None:
+        masses = tuple(element(s).monoisotopic_mass for s, _, _ in bounds)
+        key = repr((_TABLE_FORMAT, bounds, masses, pruning, cap, _FIRST_GROUP_SIZE, _SECOND_GROUP_TARGET))
+        path = folder / f"{hashlib.sha256(key.encode()).hexdigest()[:24]}.npz"
+        loaded = _load_groups(path, bounds)
+        if loaded is not None:
+            return loaded
+    started = time.perf_counter()
+    groups = _build_groups(bounds, pruning, cap)
+    if path is not None and time.perf_counter() - started > _SAVE_AFTER_S:
+        _save_groups(path, groups)
+    return groups
+
+
+def _table_cache():
+    from nmrcheck.cache import user_cache_dir
+
+    return user_cache_dir("formula-tables")
+
+
+def _load_groups(path, bounds) -> tuple[_Group, _Group] | None:
+    try:
+        with np.load(path) as data:
+            out = []
+            for g in ("a", "b"):
+                columns = tuple(int(c) for c in data[f"{g}_columns"])
+                counts = np.ascontiguousarray(data[f"{g}_counts"])
+                parity = tuple(int(x) for x in data[f"{g}_parity"])
+                if counts.ndim != 2 or counts.shape[1] != len(columns) or parity[2] != counts.shape[0]:
+                    return None
+                out.append(_group_of_sorted(columns, counts, bounds, parity))
+            return out[0], out[1]
+    except (OSError, KeyError, ValueError, EOFError):
+        return None
+
+
+def _save_groups(path, groups) -> None:
+    import os
+    import tempfile
+
+    try:
+        path.parent.mkdir(parents=True, exist_ok=True)
+        fd, tmp = tempfile.mkstemp(prefix=path.stem, suffix=".part", dir=path.parent)
+        with os.fdopen(fd, "wb") as fh:
+            np.savez(fh, **{f"{g}_{k}": v for g, grp in zip("ab", groups)
+                            for k, v in (("columns", np.array(grp.columns, dtype=np.int64)), ("counts", grp.counts),
+                                         ("parity", np.array(grp.parity_start, dtype=np.int64)))})
+        os.replace(tmp, path)
+    except OSError:
+        # A read-only or full disk only costs the next process the build time.
+        return
+
+
+def _build_groups(bounds, pruning: Pruning, cap: float) -> tuple[_Group, _Group]:
     """Split the elements into a tabulated and a searched group and build both (cached).
 
     Carbon and hydrogen go first into the tabulated group, then the other elements, widest

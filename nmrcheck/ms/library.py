@@ -335,9 +335,10 @@ def _meta(database: Path) -> dict[str, str]:
 
 
 def default_cache_dir() -> Path:
-    """Per-user cache folder for library indexes (``$XDG_CACHE_HOME/nmrcheck`` or ``~/.cache/nmrcheck``)."""
-    base = os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache")
-    return Path(base) / "nmrcheck" / "libraries"
+    """Per-user cache folder for library indexes (:func:`nmrcheck.cache.user_cache_dir`; a temporary folder when disabled)."""
+    from nmrcheck.cache import user_cache_dir
+
+    return user_cache_dir("libraries") or Path(tempfile.gettempdir()) / "nmrcheck-libraries"
 
 
 def open_library(path: str | os.PathLike, *, cache_dir: str | os.PathLike | None = None, workers: int = 1) -> LibraryInfo:

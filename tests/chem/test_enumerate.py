@@ -123,3 +123,32 @@ def test_huge_search_space_is_refused_with_advice():
         enumerate_formulas(
             2999.0, 2999.01, {"C": (0, 250), "H": (0, 500), "N": (0, 200), "O": (0, 180), "P": (0, 90), "S": (0, 90), "Cl": (0, 80)}
         )
+
+
+def test_tables_cached_on_disk_give_the_same_compositions(tmp_path, monkeypatch):
+    """The sorted tables are written to the user cache (here a temporary folder) and read back
+    instead of being built; a damaged cache file is rebuilt."""
+    import nmrcheck.chem.enumerate as enumerate_module
+
+    monkeypatch.setenv("NMRCHECK_CACHE_DIR", str(tmp_path))
+    monkeypatch.setattr(enumerate_module, "_SAVE_AFTER_S", 0.0)
+    ranges = {"C": (0, 30), "H": (0, 60), "N": (0, 5), "O": (0, 10), "S": (0, 2)}
+    enumerate_module._groups.cache_clear()
+    built = enumerate_formulas(400.10, 400.12, ranges)
+    files = list((tmp_path / "formula-tables").glob("*.npz"))
+    assert len(files) == 1
+    enumerate_module._groups.cache_clear()
+
+    def no_build(*args):
+        raise AssertionError("tables were built again instead of read from the cache")
+
+    monkeypatch.setattr(enumerate_module, "_build_groups", no_build)
+    loaded = enumerate_formulas(400.10, 400.12, ranges)
+    assert set(loaded.formulas()) == set(built.formulas())
+    assert np.array_equal(np.sort(loaded.masses), np.sort(built.masses))
+    monkeypatch.undo()
+    monkeypatch.setenv("NMRCHECK_CACHE_DIR", str(tmp_path))
+    files[0].write_bytes(b"not a table")
+    enumerate_module._groups.cache_clear()
+    assert set(enumerate_formulas(400.10, 400.12, ranges).formulas()) == set(built.formulas())
+    enumerate_module._groups.cache_clear()
