@@ -44,8 +44,15 @@ class KnownCompoundRow:
 
 def _csv_rows(path: Path, delimiter: str) -> Iterator[KnownCompoundRow]:
     with open(path, newline="", encoding="utf-8-sig", errors="replace") as fh:
-        lines = (ln for ln in fh if ln.strip() and not ln.lstrip().startswith("#"))
-        reader = csv.reader(lines, delimiter=delimiter)
+        numbers: list[int] = []  # file line of each line the reader sees (comments and blank lines skipped)
+
+        def lines():
+            for n, ln in enumerate(fh, start=1):
+                if ln.strip() and not ln.lstrip().startswith("#"):
+                    numbers.append(n)
+                    yield ln
+
+        reader = csv.reader(lines(), delimiter=delimiter)
         try:
             header = [h.strip().lower() for h in next(reader)]
         except StopIteration:
@@ -55,10 +62,10 @@ def _csv_rows(path: Path, delimiter: str) -> Iterator[KnownCompoundRow]:
         index = {name: header.index(name) for name in ("smiles", "name", "formula", "inchikey", *TAXON_COLUMNS) if name in header}
         if "name" not in index and "label" in header:
             index["name"] = header.index("label")
-        for n, fields in enumerate(reader, start=2):
+        for fields in reader:
             get = {k: (fields[i].strip() if i < len(fields) else "") for k, i in index.items()}
             yield KnownCompoundRow(
-                line=n, name=get.get("name", ""), smiles=get["smiles"], formula=get.get("formula", ""),
+                line=numbers[reader.line_num - 1], name=get.get("name", ""), smiles=get["smiles"], formula=get.get("formula", ""),
                 inchikey=get.get("inchikey", ""), species=get.get("species", ""), genus=get.get("genus", ""),
                 family=get.get("family", ""), kingdom=get.get("kingdom", ""),
             )

@@ -43,13 +43,15 @@ def read_retention_calibration(path: str | os.PathLike) -> tuple[RetentionRefere
         text = p.read_text(encoding="utf-8-sig")
     except OSError as exc:
         raise InputFileError(p, f"cannot be read ({exc.strerror or exc})") from None
-    lines = [ln for ln in text.splitlines() if ln.strip() and not ln.lstrip().startswith("#")]
-    reader = csv.DictReader(io.StringIO("\n".join(lines)))
+    kept = [(n, ln) for n, ln in enumerate(text.splitlines(), start=1) if ln.strip() and not ln.lstrip().startswith("#")]
+    numbers = [n for n, _ in kept]  # file line of each line the reader sees
+    reader = csv.DictReader(io.StringIO("\n".join(ln for _, ln in kept)))
     fields = {(f or "").strip().lower(): f for f in reader.fieldnames or []}
     if "rt_min" not in fields or not ({"logp", "smiles"} & set(fields)):
         raise InputFileError(p, "a retention calibration needs an 'rt_min' column and a 'logp' or 'smiles' column")
     out = []
-    for n, row in enumerate(reader, start=2):
+    for row in reader:
+        n = numbers[reader.line_num - 1]
         get = {k: (row.get(f) or "").strip() for k, f in fields.items()}
         try:
             rt = float(get["rt_min"])

@@ -33,3 +33,22 @@ def test_check_without_candidates_is_a_clear_error(refdata):
     result = CliRunner().invoke(main, ["check", str(fid), "--smiles", "C1CC"])
     assert result.exit_code == 2
     assert "no usable candidate" in result.output
+
+
+def test_check_with_a_known_compound_library(refdata, tmp_path, monkeypatch):
+    """Estragole's recording with a library holding estragole and its isomer anethole (both C10H12O,
+    RDKit); the known compounds at the feature's mass become the candidates, genus match first."""
+    monkeypatch.setenv("NMRCHECK_CACHE_DIR", str(tmp_path / "cache"))
+    fid = Path(refdata) / "jcamp-fid" / "140-67-0" / "1h.fid.dx"
+    library = tmp_path / "known.csv"
+    library.write_text("name,smiles,genus,family\nestragole,C=CCc1ccc(OC)cc1,Artemisia,Asteraceae\n"
+                       "anethole,COc1ccc(/C=C/C)cc1,Pimpinella,Apiaceae\nthymol,Cc1ccc(C(C)C)c(O)c1,Thymus,Lamiaceae\n")
+    args = ["check", str(fid), "--mz", "149.09609", "--ion", "[M+H]+", "--library", str(library), "--genus", "Pimpinella", "--json"]
+    result = CliRunner().invoke(main, args)
+    assert result.exit_code == 0, result.output
+    assert "known compounds: known (2 candidates)" in result.stderr
+    doc = json.loads(result.stdout)
+    labels = {c["label"] for c in doc["candidates"]}
+    assert labels == {"anethole (known; genus pimpinella)", "estragole (known; other taxa artemisia)"}
+    best = min(doc["candidates"], key=lambda c: c["rank"])
+    assert best["label"].startswith("estragole")  # the spectrum decides, not the taxon
