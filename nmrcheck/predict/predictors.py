@@ -51,8 +51,12 @@ class IncrementPredictor:
 
 
 def _key(mol: Chem.Mol) -> str:
+    # The predictions carry atom indices: the same compound written in another atom order
+    # (another SMILES) is another key, hence the canonical rank of every index beside the SMILES.
     try:
-        return Chem.MolToMolBlock(mol) if mol.GetNumConformers() else Chem.MolToSmiles(mol)
+        if mol.GetNumConformers():
+            return Chem.MolToMolBlock(mol)
+        return Chem.MolToSmiles(mol) + "|" + ",".join(str(r) for r in Chem.CanonicalRankAtoms(mol, breakTies=True))
     except Exception as exc:  # RDKit raises several exception types on broken molecules
         raise CandidateError(f"structure cannot be written out: {exc}") from None
 

@@ -47,3 +47,17 @@ def test_learned_predictor_without_the_extra_says_how_to_install(monkeypatch):
 
     with pytest.raises(CandidateError, match="learned-shifts"):
         LearnedPredictor().predict(Chem.MolFromSmiles("CCO"), "CDCl3")
+
+
+def test_same_compound_in_another_atom_order_gets_its_own_prediction():
+    """trans-Anethole written from either end: the predicted atom indices are those of the molecule given."""
+    from rdkit import Chem
+
+    from nmrcheck.predict.predictors import IncrementPredictor
+
+    predictor = IncrementPredictor()
+    for smiles in ("COc1ccc(/C=C/C)cc1", "C/C=C/c1ccc(OC)cc1"):
+        mol = Chem.MolFromSmiles(smiles)
+        for shift in predictor.predict(mol):
+            atom = mol.GetAtomWithIdx(shift.atom_index)
+            assert atom.GetTotalNumHs() > 0, smiles
