@@ -114,12 +114,44 @@ def _preload() -> None:
             continue
 
 
+_CLUSTER_GRACE = 1.25
+"""A stuck well's cluster worker is ended after this many times the time limit, plus a second."""
+
+
+def screen_well_on_cluster(spec: WellSpec, directory: str, options: ScreenOptions, stop_after_s: float | None) -> WellResult:
+    """:func:`screen_well` in a cluster worker process, with a watchdog for wells that never return.
+
+    A thread cannot be stopped, so a well still running ``stop_after_s`` after it started ends
+    its worker process; the cluster's nanny starts a fresh one. By then the run has recorded
+    the well as stopped and cancelled it, so it is not tried again.
+    """
+    done = threading.Event()
+    if stop_after_s:
+
+        def watchdog() -> None:
+            if not done.wait(stop_after_s):
+                log.error("well %s: still running after %.0f s; ending this worker process so that it is replaced", spec.well, stop_after_s)
+                os._exit(70)
+
+        threading.Thread(target=watchdog, name=f"nmrcheck-watchdog-{spec.well}", daemon=True).start()
+    try:
+        return screen_well(spec, directory, options)
+    finally:
+        done.set()
+
+
+def _is_cluster(executor: cf.Executor) -> bool:
+    """True for Dask distributed's executor: its tasks run in worker processes a nanny replaces."""
+    return type(executor).__module__.split(".")[0] == "distributed"
+
+
 class _ExecutorBackend:
     """Wells on any concurrent.futures executor, at most ``slots`` in flight.
 
-    The time limit counts from submission (a task cannot be stopped on someone else's
-    executor: the well is recorded as stopped and its future cancelled where possible);
-    the executor's own memory limits apply. Only as many wells as the executor has
+    The time limit counts from submission: the well is recorded as stopped and its future
+    cancelled. On a Dask cluster a well that still runs a little later ends its worker
+    process, which the nanny replaces (:func:`screen_well_on_cluster`); on other executors
+    the task runs on. The executor's own memory limits apply. Only as many wells as the executor has
     workers are submitted at once, so a well waits little in its queue and an in-process
     executor commits each well before it starts the next.
     """
@@ -140,7 +172,12 @@ class _ExecutorBackend:
         return len(self._in_flight)
 
     def submit(self, spec: WellSpec) -> None:
-        self._in_flight[self._executor.submit(screen_well, spec, self._directory, self._options)] = (spec, time.monotonic())
+        if _is_cluster(self._executor):
+            stop_after = self._limits.time_s * _CLUSTER_GRACE + 1.0 if self._limits.time_s else None
+            fut = self._executor.submit(screen_well_on_cluster, spec, self._directory, self._options, stop_after)
+        else:
+            fut = self._executor.submit(screen_well, spec, self._directory, self._options)
+        self._in_flight[fut] = (spec, time.monotonic())
 
     def poll(self, timeout: float) -> list[tuple[WellSpec, WellResult]]:
         if not self._in_flight:

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import os
 import signal
+import sys
 import threading
 import time
 
@@ -88,3 +89,56 @@ def test_command_line_points_at_a_scheduler(client, small_plate, tmp_path):
     with ResultsStore(tmp_path / "out") as store:
         assert store.count_history() == len(PLATE_WELLS)
         assert all(r.status == "done" for r in store.current().values())
+
+
+def _hang_on_a2():
+    """Run in each worker process: the recording reader never returns for well A2 (as a parser stuck in a loop would)."""
+    import time as _time
+
+    import nmrcheck.io
+
+    real = nmrcheck.io.read_any
+
+    def reader(path, *args, **kwargs):
+        if str(path).rstrip("/").endswith("/A2"):
+            _time.sleep(3600)
+        return real(path, *args, **kwargs)
+
+    reader.real = real
+    nmrcheck.io.read_any = reader
+
+
+def _unpatch():
+    import nmrcheck.io
+
+    nmrcheck.io.read_any = getattr(nmrcheck.io.read_any, "real", nmrcheck.io.read_any)
+
+
+def test_a_stuck_well_is_stopped_and_its_worker_replaced(client, small_plate, tmp_path):
+    import cloudpickle
+
+    from nmrcheck.plate.workers import WellLimits
+
+    cloudpickle.register_pickle_by_value(sys.modules[__name__])
+    before = set(client.run(os.getpid).values())
+    client.run(_hang_on_a2)
+    try:
+        manifest = read_manifest(small_plate(PLATE_WELLS))
+        summary = run_plate(manifest, tmp_path / "out", executor=client.get_executor(pure=False), limits=WellLimits(time_s=1.5))
+        assert summary.status == "complete"
+        with ResultsStore(tmp_path / "out") as store:
+            current = store.current()
+            assert store.count_history() == len(PLATE_WELLS)
+        assert current["A2"].status == "error" and current["A2"].error.startswith("took longer than 1.5 s")
+        assert all(current[w].status == "done" for w in PLATE_WELLS if w != "A2")
+        # The worker stuck in A2 ends itself a little after the limit; its nanny starts a new one.
+        deadline = time.monotonic() + 60
+        while time.monotonic() < deadline:
+            pids = set(client.run(os.getpid).values())
+            if len(pids) == 2 and pids != before:
+                break
+            time.sleep(0.25)
+        assert len(pids) == 2 and len(pids & before) == 1, (before, pids)
+    finally:
+        client.run(_unpatch)
+        cloudpickle.unregister_pickle_by_value(sys.modules[__name__])
