@@ -10,6 +10,7 @@ import sys
 import click
 
 from nmrcheck import __version__
+from nmrcheck.data import user_citations
 from nmrcheck.errors import NmrcheckError
 from nmrcheck.tolerances import DEFAULT_TOLERANCE_PPM
 
@@ -277,7 +278,7 @@ def process_command(path, as_json, size, lb_hz, solvent, phase, anchor_h, save_s
         with writing(plot_path):
             plot_processed(processed, plot_path)
     if as_json:
-        click.echo(json.dumps(summary, indent=2))
+        click.echo(json.dumps(user_citations(summary), indent=2))
     else:
         from nmrcheck.report.process_text import format_processed
 
@@ -498,7 +499,7 @@ def quant_command(spectrum, analyte_range, analyte_h, candidate, longest_t1, as_
         "recommendation": rec.as_dict(),
     }
     if as_json:
-        click.echo(json.dumps(result, indent=2))
+        click.echo(json.dumps(user_citations(result), indent=2))
         return
     a = amount
     per = "nmol" if a.nmol_per_proton is not None else "mM"

@@ -9,7 +9,7 @@ from importlib import resources
 
 from nmrcheck.errors import TableError
 
-__all__ = ["load_table", "table_names", "user_citation"]
+__all__ = ["load_table", "table_names", "user_citation", "user_citations"]
 
 
 def table_names() -> list[str]:
@@ -65,3 +65,14 @@ def user_citation(text: str | None) -> str:
     for pattern, repl in _MEMORY_FORMS:
         out = pattern.sub(repl, out)
     return re.sub(r"\s{2,}", " ", out).strip(" ;,")
+
+
+def user_citations(obj):
+    """A JSON-ready structure with :func:`user_citation` applied to every string in it (for JSON shown to users)."""
+    if isinstance(obj, str):
+        return user_citation(obj) if "memory" in obj.lower() else obj
+    if isinstance(obj, dict):
+        return {k: user_citations(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [user_citations(v) for v in obj]
+    return obj

@@ -5,6 +5,7 @@ from __future__ import annotations
 import json
 from collections.abc import Sequence
 
+from nmrcheck.data import user_citations
 from nmrcheck.report.amount_text import amount_line
 
 __all__ = ["verdicts_text", "verdicts_json"]
@@ -73,4 +74,4 @@ def verdicts_json(verdicts: Sequence, problems: Sequence = (), *, evidence=None,
             "total_h_range": [evidence.total_h_low, evidence.total_h_high],
             "neutral_mass": evidence.ms.neutral_mass if evidence.ms else None,
         }
-    return json.dumps(doc, indent=2)
+    return json.dumps(user_citations(doc), indent=2)

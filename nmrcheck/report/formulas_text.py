@@ -6,6 +6,7 @@ import json
 from typing import Any
 
 from nmrcheck.chem.candidates import FormulaCandidate, FormulaSearch
+from nmrcheck.data import user_citations
 
 __all__ = ["candidate_record", "search_record", "format_search", "search_json"]
 
@@ -73,7 +74,7 @@ def search_record(search: FormulaSearch) -> dict[str, Any]:
 def search_json(search: FormulaSearch, *, full: bool = False) -> str:
     """JSON text: the list of candidates, or with ``full`` the whole search record."""
     data = search_record(search) if full else [candidate_record(c) for c in search.candidates]
-    return json.dumps(data, indent=2)
+    return json.dumps(user_citations(data), indent=2)
 
 
 def _tidy(x: float) -> float:

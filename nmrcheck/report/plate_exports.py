@@ -17,6 +17,7 @@ import re
 from pathlib import Path
 from typing import Any, Iterable, Mapping
 
+from nmrcheck.data import user_citations
 from nmrcheck.io.atomic import write_text_atomically
 from nmrcheck.plate.results import WellResult
 from nmrcheck.report.amount_text import amount_line
@@ -222,4 +223,4 @@ def write_json(results: Iterable[WellResult], path: str | os.PathLike, *, run: M
         d["assay"] = line.activity.as_dict() if line.activity is not None else None
         wells.append(d)
     doc = {"run": dict(run or {}), "wells": wells}
-    return write_text_atomically(path, json.dumps(doc, indent=1, sort_keys=True, default=str))
+    return write_text_atomically(path, json.dumps(user_citations(json.loads(json.dumps(doc, default=str))), indent=1, sort_keys=True))

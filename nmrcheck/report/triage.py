@@ -14,8 +14,8 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
-from nmrcheck.io.assay import AssayReadout
 from nmrcheck.data import user_citation as clean_citation
+from nmrcheck.io.assay import AssayReadout
 from nmrcheck.plate.results import WellResult
 
 __all__ = [

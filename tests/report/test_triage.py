@@ -94,3 +94,20 @@ def test_known_compound_search_shown():
     assert well_line(r).known == "no known compound at this mass"
     r = _result(verdict="consistent", notes=("known compounds: known (3 candidates)",))
     assert well_line(r).known == "known (3 candidates)"
+
+
+def test_json_outputs_cite_without_the_contributors_note(tmp_path):
+    """The JSON of `process` (amount reference, thresholds) shows citations as users see them."""
+    from click.testing import CliRunner
+
+    from nmrcheck.cli import main
+    from nmrcheck.io.writers import write_bruker_fid
+    from nmrcheck.synth import Line, simulate_fid
+
+    fid = simulate_fid([Line(3.81, 3, 0.9), Line(7.26, 20.0, 1.0), Line(0.0, 0.5, 0.8)], spectrometer_mhz=600.13, sweep_width_hz=9600.0,
+                       points=8192, carrier_ppm=6.0, noise=0.005, seed=2, solvent="CDCl3")
+    write_bruker_fid(fid, tmp_path / "1")
+    done = CliRunner().invoke(main, ["process", str(tmp_path / "1"), "--json", "--solvent-reference", "--deuteration-pct", "99.8", "--volume-ul", "35"])
+    assert done.exit_code == 0, done.output
+    assert "Gottlieb" in done.output or "common practice" in done.output
+    assert "from memory" not in done.output
