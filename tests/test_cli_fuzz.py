@@ -65,10 +65,12 @@ def test_formulas_numbers_must_be_finite(args):
 
 
 def test_huge_smiles_is_refused_by_size(experiment):
-    """A 100,000-atom SMILES: refused by the documented 1000-heavy-atom limit, named in the message."""
+    """A 100,000-atom SMILES: refused by the documented heavy-atom limit, named in the message."""
+    from nmrcheck.io.structures import MAX_HEAVY_ATOMS
+
     result = CliRunner().invoke(main, ["check", str(experiment), "--smiles", "C" * 100_000])
     assert result.exit_code == 2 and "Traceback" not in result.output
-    assert "1000" in result.output
+    assert str(MAX_HEAVY_ATOMS) in result.output
 
 
 def test_workers_are_bounded(tmp_path):
@@ -195,5 +197,7 @@ def test_subprocess_absurd_base_frequency_and_size(experiment, tmp_path):
 
 
 def test_subprocess_huge_smiles(experiment):
+    from nmrcheck.io.structures import MAX_HEAVY_ATOMS
+
     proc = _run("check", str(experiment), "--smiles", "C" * 100_000, timeout=60)
-    assert proc.returncode == 2 and "1000" in proc.stderr
+    assert proc.returncode == 2 and str(MAX_HEAVY_ATOMS) in proc.stderr

@@ -218,6 +218,10 @@ def _check_formula(text: str) -> str | None:
 def _check_smiles(smiles: str) -> bool:
     from rdkit import Chem, RDLogger
 
+    from nmrcheck.io.structures import smiles_size_problem
+
+    if smiles_size_problem(smiles):
+        return False  # beyond the structure size checked (RDKit alone can take minutes on it)
     RDLogger.DisableLog("rdApp.*")
     return Chem.MolFromSmiles(smiles) is not None
 

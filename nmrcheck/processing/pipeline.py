@@ -31,7 +31,7 @@ MAX_SIZE = 1 << 20
 #: first-order correction beyond 100 turns is not a phase error but an uncorrected delay.
 MAX_P0_DEG = 720.0
 MAX_P1_DEG = 36000.0
-#: Largest proton count an anchor may name (a 1000-heavy-atom structure holds at most ~2000 H).
+#: Largest proton count an anchor may name (the largest natural products hold under 300 H).
 MAX_ANCHOR_H = 5000
 
 
