@@ -492,8 +492,10 @@ def _search(low, high, bounds, pruning: Pruning, cap: float) -> FormulaTable:
             for start in range(0, b_index.size, _SECOND_GROUP_CHUNK):
                 chunk = b_index[start : start + _SECOND_GROUP_CHUNK]
                 mb = b.masses[chunk]
-                lo_i = np.searchsorted(a_mass, low - mb - 1e-9, side="left")
-                hi_i = np.searchsorted(a_mass, high - mb + 1e-9, side="right")
+                # Keys in ascending order (b masses ascend, so low - mb descends): NumPy's binary
+                # search then starts each key where the previous one ended.
+                lo_i = np.searchsorted(a_mass, low - mb[::-1] - 1e-9, side="left")[::-1]
+                hi_i = np.searchsorted(a_mass, high - mb[::-1] + 1e-9, side="right")[::-1]
                 n = hi_i - lo_i
                 hit = n > 0
                 if not hit.any():

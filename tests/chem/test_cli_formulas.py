@@ -76,3 +76,16 @@ def test_bad_input_is_one_line(args, fragment):
     message = result.output.strip()
     assert message.startswith("nmrcheck: ") and "\n" not in message
     assert fragment in message
+
+
+def test_charged_cation_with_proton_range():
+    """Berberine C20H18NO4+ (PubChem) at m/z 336.1230 as [M]+, 18 H seen."""
+    result = run("336.1230", "--ion", "[M]+", "--h-range", "17-19", "--json")
+    assert result.exit_code == 0, result.output
+    best = json.loads(result.output)[0]
+    assert (best["formula"], best["charge"], best["rdbe"]) == ("C20H18NO4", 1, 12.5)
+    assert "protons" in best["score_parts"]
+    table = run("336.1230", "--ion", "[M]+", "--h-range", "17-19")
+    assert "C20H18NO4+" in table.output and "note         proton bound" in table.output
+    bad = run("336.1230", "--ion", "[M]+", "--h-range", "many")
+    assert bad.exit_code == 2 and "--h-range 'many'" in bad.output
