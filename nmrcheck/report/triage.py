@@ -265,7 +265,10 @@ def _count(result: WellResult, check: Mapping[str, Any] | None) -> tuple[str, st
         name = check.get("label") or check.get("formula") or "the best candidate"
         return f"{int(check['counted_h'])} H", f"as the check of {name} counted them; {own}".strip("; "), False
     if count.get("total_h") is not None:
-        return f"{float(count['total_h']):.1f} H", own, False
+        detail = "the spectrum's own count"
+        if count.get("total_h_low") is not None and count.get("total_h_high") is not None:
+            detail += f", range {float(count['total_h_low']):.1f}-{float(count['total_h_high']):.1f} H"
+        return f"{float(count['total_h']):.1f} H", detail, False
     return "", "", False
 
 
