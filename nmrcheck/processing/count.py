@@ -145,8 +145,6 @@ def count_protons(
     integral_sigma: Sequence[float] | None = None,
     anchor_h: int | None = None,
     candidate_h_counts: Sequence[int] | None = None,
-    undetected_integral: float = 0.0,
-    undetected_sigma: float = 0.0,
 ) -> tuple[tuple[Region, ...], ProtonCount]:
     """Protons per counted region and in total.
 
@@ -163,10 +161,6 @@ def count_protons(
     candidate_h_counts
         Whole-proton totals the candidate formulas allow (visible H); the unit is then
         chosen among them (:func:`bounded_unit`), not from the integrals alone.
-    undetected_integral, undetected_sigma
-        Integral (and its noise) of the analyte range outside every region: signal too
-        weak to stand out as a region. It widens the top of the range: below the
-        detection limit a signal is an uncertainty, not zero.
     """
     counted_idx = [i for i, r in enumerate(regions) if r.counted and r.integral > 0]
     if not counted_idx:
@@ -199,15 +193,14 @@ def count_protons(
     # Minor regions (under half a proton each) may be impurities rather than the analyte:
     # the low end of the range is what the major regions alone hold.
     low = min(total - half, integer - 2.0 * noise_h - 0.3)
-    unseen = max(0.0, undetected_integral + 2.0 * undetected_sigma) / unit
-    high = total + half + unseen
+    high = total + half
     residuals = tuple(float(h - np.round(h)) for h in hs)
     totals: tuple[float, ...] = ()
     if alternatives:
         totals = tuple(sorted({round(total, 2)} | {round(float(integrals.sum() / u), 2) for u in alternatives}))
         scale = [t / total for t in totals]
         low = min(low, low * min(scale))
-        high = max(high, (total + half) * max(scale) + unseen)
+        high = max(high, (total + half) * max(scale))
     count = ProtonCount(
         unit_integral=unit,
         total_h=total,
@@ -220,6 +213,5 @@ def count_protons(
         ambiguous=bool(alternatives),
         alternative_totals=totals,
         bounded_by=bounded,
-        undetected_h=unseen,
     )
     return tuple(out), count

@@ -121,11 +121,6 @@ def _suppression_ranges(spectrum: Spectrum, options: ProcessingOptions) -> list[
     return [suppression_zone(spectrum, centre, min_half_ppm=min(0.04, cap), max_half_ppm=cap)]
 
 
-#: Where analyte signal is looked for when estimating what lies below the detection limit, ppm
-#: (1H shifts of organic compounds; common practice).
-ANALYTE_RANGE_PPM = (0.3, 10.0)
-
-
 def phasing_exclusion(spectrum: Spectrum, options: ProcessingOptions | None = None) -> list[tuple[float, float]]:
     """Ranges automatic phasing leaves out: the suppression zones measured on the spectrum.
 
@@ -133,24 +128,6 @@ def phasing_exclusion(spectrum: Spectrum, options: ProcessingOptions | None = No
     sugar's anomeric doublet, are what pins the first-order phase at the high-ppm end.)
     """
     return _suppression_ranges(spectrum, options or ProcessingOptions())
-
-
-def _undetected_integral(spectrum: Spectrum, regions, noise: float, exclude) -> tuple[float, float]:
-    """(integral, its noise) of the analyte range outside every region and excluded zone.
-
-    Signal too weak to form a region still adds area there; noise adds none on average.
-    Only the positive side is of interest to the caller (it widens the top of the range).
-    """
-    ppm = spectrum.ppm
-    keep = (ppm >= ANALYTE_RANGE_PPM[0]) & (ppm <= ANALYTE_RANGE_PPM[1])
-    for r in regions:
-        keep &= ~((ppm <= r.start_ppm) & (ppm >= r.end_ppm))
-    for lo, hi in exclude:
-        keep &= ~((ppm >= min(lo, hi)) & (ppm <= max(lo, hi)))
-    n = int(keep.sum())
-    if n == 0:
-        return 0.0, 0.0
-    return float(spectrum.data.real[keep].sum() * spectrum.step_ppm), float(noise * spectrum.step_ppm * np.sqrt(n))
 
 
 def snr_of(spectrum: Spectrum, regions, noise: float) -> float:
@@ -237,10 +214,8 @@ def process(source: Fid | SpectrumFile | str | os.PathLike, options: ProcessingO
         for r, sg in zip(regions, sigmas)
     )
     if any(r.counted for r in regions):
-        unseen, unseen_sigma = _undetected_integral(spec, regions, noise, exclude)
         regions, count = count_protons(regions, integral_sigma=sigmas, anchor_h=opts.anchor_h,
-                                       candidate_h_counts=opts.candidate_h_counts,
-                                       undetected_integral=unseen, undetected_sigma=unseen_sigma)
+                                       candidate_h_counts=opts.candidate_h_counts)
     else:
         warnings.append("no analyte signal above the noise threshold")
     snr = snr_of(spec, regions, noise)

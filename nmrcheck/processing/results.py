@@ -70,8 +70,6 @@ class ProtonCount:
     unless ``ambiguous``."""
     bounded_by: tuple[int, ...] | None = None
     """Whole-proton totals the caller allowed (candidate formulas' visible H), when given."""
-    undetected_h: float = 0.0
-    """Protons that signal too weak to form a region may hold (top of the range widened by it)."""
 
 
 @dataclass(frozen=True)
