@@ -318,8 +318,14 @@ def plate_group() -> None:
 @click.option("--lcms", "lcms_run", type=click.Path(dir_okay=False), default=None, help="The extract's LC-MS run (mzML): each well's MS features come from it (the manifest's own entries win).")
 @click.option("--timetable", type=click.Path(dir_okay=False), default=None, help="Fraction-collection timetable (CSV: well, start_min, end_min) for --lcms.")
 @click.option("--collector-delay-min", "collector_delay_min", type=Number(0, 100), default=0.0, show_default=True, help="Time from the MS detector to the fraction collector, minutes.")
+@click.option("--volume-ul", "volume_ul", type=Number(1, 2000), default=None, help="Solvent in each tube, uL [default: 35] (a manifest volume_ul column overrides it per well).")
+@click.option("--deuteration-pct", "deuteration_pct", type=Number(90, 100), default=None, help="Atom % D of the solvent lot [default: 99.8] (manifest column deuteration_pct per well).")
+@click.option("--standard", "standard", default=None, help="Internal standard in every tube (a name in the standards table); default: the residual solvent line.")
+@click.option("--standard-nmol", "standard_nmol", type=Number(1e-3, 1e6), default=None, help="Internal standard per tube, nmol (with --standard; manifest column standard_nmol per well).")
+@click.option("--experiment", "next_experiment", default=None, help="Next experiment the go/no-go is for [default: 1H-13C HSQC] (manifest column next_experiment per well).")
 @user_errors
-def plate_run(manifest, out_dir, workers, well_timeout, well_memory, watch, time_limit_h, poll_s, quiet_s, redo, layout, lb_hz, mass_tolerance_ppm, library, genus, family, retention_calibration, scheduler, no_report, assay_path, lcms_run, timetable, collector_delay_min) -> None:
+def plate_run(manifest, out_dir, workers, well_timeout, well_memory, watch, time_limit_h, poll_s, quiet_s, redo, layout, lb_hz, mass_tolerance_ppm, library, genus, family, retention_calibration, scheduler, no_report, assay_path, lcms_run, timetable, collector_delay_min,
+              volume_ul, deuteration_pct, standard, standard_nmol, next_experiment) -> None:
     """Screen every well of MANIFEST into --out; rerunning resumes. Exit 0 when the run completed."""
     from dataclasses import replace
 
@@ -343,6 +349,10 @@ def plate_run(manifest, out_dir, workers, well_timeout, well_memory, watch, time
     options = ScreenOptions(processing=processing)
     if mass_tolerance_ppm is not None:
         options = replace(options, mass_tolerance_ppm=mass_tolerance_ppm)
+    amount = {k: v for k, v in (("solvent_volume_ul", volume_ul), ("deuteration_pct", deuteration_pct), ("standard", standard),
+                                 ("standard_nmol", standard_nmol), ("next_experiment", next_experiment)) if v is not None}
+    if amount:
+        options = replace(options, **amount)
     if library:
         from pathlib import Path
 
@@ -536,9 +546,11 @@ def quant_command(spectrum, analyte_range, analyte_h, candidate, longest_t1, as_
 def check_command(spectrum, formulas, smiles, candidates_file, mz, ion, ppm_tol, isotopes, solvent, as_json, plot_path, library, genus, family, quant):
     """Check candidate formulas and structures against SPECTRUM and an MS feature.
 
-    With an MS feature and no candidates, the formula engine proposes them. With an amount
-    reference (--standard, --solvent-reference or --calibration) each candidate also gets its
-    amount in the tube (from the protons its count assigns) and the go/no-go for the next experiment.
+    With an MS feature and no candidates, the formula engine proposes them. The well's purity
+    (one compound or several) comes from the best structure's assignment. With an amount
+    reference (--standard, --solvent-reference or --calibration) the best candidate that is not
+    inconsistent gets its amount in the tube (on its own signals and protons) and the go/no-go
+    for the next experiment, or a one-line reason why no amount is given.
     """
     from nmrcheck.errors import ParameterError as _ParameterError
     from nmrcheck.processing import process as _process
@@ -582,12 +594,11 @@ def check_command(spectrum, formulas, smiles, candidates_file, mz, ion, ppm_tol,
 
         with writing(plot_path):
             plot_check(processed, verdicts, plot_path)
-    amounts = None
-    if quant.requested:
-        amount = quant.amount(processed)
-        amounts = quant.assess(amount, processed, candidates=[(v.candidate.formula, v.counted_h(evidence, exclude_ppm=amount.reference_range_ppm)) for v in verdicts])
+    from nmrcheck.validate import amount_basis, purity_of
+
+    amounts = quant.for_candidate(processed, amount_basis(verdicts, evidence)) if quant.requested else None
     render = verdicts_json if as_json else verdicts_text
-    click.echo(render(verdicts, problems, evidence=evidence, amounts=amounts))
+    click.echo(render(verdicts, problems, evidence=evidence, amounts=amounts, purity=purity_of(verdicts, evidence)))
 
 
 # --- formulas -----------------------------------------------------------------------------

@@ -122,29 +122,37 @@ def test_process_text_shows_the_amount(recordings):
     assert "nmol" in line and "1H-13C HSQC: GO" in line
 
 
-def test_check_amount_per_candidate(recordings):
-    """Each candidate's amount uses the protons its own count assigns (ethanol: 5 C-H, OH exchanged in D2O)."""
-    out = _json("check", recordings / "ethanol", "--smiles", "CCO ethanol", "--formula", "C3H8O", *STANDARD)
+def test_check_amount_only_for_the_best_sound_candidate(recordings):
+    """The amount is that of the best candidate that is not inconsistent, on its own signals and protons
+    (ethanol: 5 C-H, OH exchanged in D2O); a second candidate gets none (no amount from another hypothesis)."""
+    out = _json("check", recordings / "ethanol", "--smiles", "CCO ethanol", "--smiles", "CC(C)O propan-2-ol", *STANDARD)
     by_label = {c["label"]: c for c in out["candidates"]}
-    ethanol, propanol = by_label["ethanol"], by_label["C3H8O"]
+    ethanol, propanol = by_label["ethanol"], by_label["propan-2-ol"]
     mw = Descriptors.MolWt(Chem.MolFromSmiles("CCO"))  # RDKit average molar mass
     assert ethanol["amount"]["nmol"] == pytest.approx(ETHANOL_NMOL, rel=0.01)
+    assert ethanol["amount"]["n_h"] == 5
     assert ethanol["amount"]["ug"] == pytest.approx(ETHANOL_NMOL * mw * 1e-3, rel=0.01)
     assert ethanol["amount"]["conc_mM"] == pytest.approx(ETHANOL_NMOL / VOLUME_UL, rel=0.01)
     assert ethanol["amount"]["method"] == "internal standard" and ethanol["amount"]["uncertainty_pct"] > 0
-    # C3H8O anchors the same integrals to 8 H: the same protons spread over more H per molecule.
-    assert propanol["amount"]["nmol"] == pytest.approx(ETHANOL_NMOL * 5 / 8, rel=0.01)
-    for c in out["candidates"]:
-        assert c["recommendation"]["decision"] in {"go", "borderline", "no-go"}
-    assert out["recommendation"] == out["candidates"][0]["recommendation"]
-    assert out["amount"]["nmol"] == pytest.approx(ETHANOL_NMOL, rel=0.01)
+    assert "amount" not in propanol
+    assert ethanol["recommendation"]["decision"] in {"go", "borderline", "no-go"}
+    assert out["recommendation"] == ethanol["recommendation"] and out["amount_refused"] is None
 
 
-def test_check_text_shows_each_amount(recordings):
+def test_check_refuses_the_amount_of_an_inconsistent_candidate(recordings):
+    """Only an inconsistent structure given (propan-1-ol on ethanol's spectrum): no amount, with the reason."""
+    out = _json("check", recordings / "ethanol", "--smiles", "CCCO propanol", *STANDARD)
+    assert out["candidates"][0]["verdict"] == "inconsistent"
+    assert "amount" not in out["candidates"][0]
+    assert out["amount_refused"].startswith("no amount: every candidate is inconsistent")
+
+
+def test_check_text_shows_the_amount(recordings):
     result = _run("check", recordings / "ethanol", "--smiles", "CCO ethanol", *STANDARD)
     assert result.exit_code == 0, result.output
     assert "amount reference: DSS-d6" in result.output
-    assert any(ln.strip().startswith("amount 5 H:") and "µg" in ln for ln in result.output.splitlines())
+    assert any(ln.strip().startswith("amount (5 H on its own signals):") and "µg" in ln for ln in result.output.splitlines())
+    assert "purity: single compound" in result.output
 
 
 @pytest.mark.parametrize(

@@ -39,8 +39,15 @@ COLUMNS = (
     "structures",
     "candidates_file",
     "solvent",
+    "volume_ul",
+    "deuteration_pct",
+    "standard",
+    "standard_nmol",
+    "next_experiment",
     "notes",
 )
+#: Columns that set the amount for one well (over the plate's settings).
+AMOUNT_COLUMNS = ("volume_ul", "deuteration_pct", "standard", "standard_nmol", "next_experiment")
 REQUIRED_COLUMNS = ("well", "spectrum")
 
 _WELL = re.compile(r"^([A-Za-z])0*(\d{1,2})$")
@@ -109,6 +116,9 @@ class WellSpec:
     candidates_file: str | None = None
     solvent: str | None = None
     """Solvent to assume when the recording does not name one."""
+    amount_settings: tuple[tuple[str, float | str], ...] = ()
+    """This well's own amount settings (``volume_ul``, ``deuteration_pct``, ``standard``, ``standard_nmol``,
+    ``next_experiment``) over the plate's, as (name, value) pairs."""
     notes: str = ""
     lcms: dict | None = field(default=None, compare=False)
     """The well's record from the extract's LC-MS run (features, MS/MS, related wells) when the plate
@@ -126,6 +136,7 @@ class WellSpec:
             "structures": [list(s) for s in self.structures],
             "candidates_file": self.candidates_file,
             "solvent": self.solvent,
+            "amount_settings": {k: v for k, v in self.amount_settings},
             "notes": self.notes,
         }
 
@@ -335,6 +346,44 @@ def _parse_row(row: dict[str, str], line: int, directory: Path, problems: list[s
             bad("solvent", f"{solvent!r} is not in the solvent table ({', '.join(known_solvents())})")
         solvent = name
 
+    amount_settings: list[tuple[str, float | str]] = []
+    for col, low, high in (("volume_ul", 1.0, 2000.0), ("deuteration_pct", 90.0, 100.0), ("standard_nmol", 1e-3, 1e6)):
+        text = (row.get(col) or "").strip()
+        if not text:
+            continue
+        try:
+            value = float(text)
+        except ValueError:
+            bad(col, f"{text!r} is not a number")
+            continue
+        if not low <= value <= high:
+            bad(col, f"{value:g} is outside {low:g}..{high:g}")
+            continue
+        amount_settings.append((col, value))
+    standard = (row.get("standard") or "").strip()
+    if standard:
+        from nmrcheck.quant.references import known_standards, standard_info
+
+        try:
+            standard_info(standard)
+        except NmrcheckError:
+            bad("standard", f"{standard!r} is not in the standards table ({', '.join(known_standards())})")
+        else:
+            amount_settings.append(("standard", standard))
+    if any(k == "standard_nmol" for k, _ in amount_settings) and not standard:
+        bad("standard_nmol", "given without a standard to belong to")
+    if standard and not any(k == "standard_nmol" for k, _ in amount_settings):
+        bad("standard", "give the standard's amount in the tube in standard_nmol")
+    experiment = (row.get("next_experiment") or "").strip()
+    if experiment:
+        from nmrcheck.quant.recommend import load_thresholds
+
+        known = load_thresholds()
+        if experiment.lower() not in known:
+            bad("next_experiment", f"{experiment!r} is not one of {', '.join(sorted(known))}")
+        else:
+            amount_settings.append(("next_experiment", experiment))
+
     if len(problems) > n_before:
         return None
     return WellSpec(
@@ -348,6 +397,7 @@ def _parse_row(row: dict[str, str], line: int, directory: Path, problems: list[s
         structures=tuple(structures),
         candidates_file=cand_file,
         solvent=solvent,
+        amount_settings=tuple(amount_settings),
         notes=row.get("notes", ""),
     )
 

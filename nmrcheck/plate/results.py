@@ -84,6 +84,9 @@ class WellResult:
     isotopes), ``rt_min``, ``share`` of the well's ion current, ``ms2`` spectra), ``major_features`` (how many
     reach ``major_share``: more than one is evidence of a mixture), ``related_wells`` (MS/MS groups),
     ``manifest_feature`` (which feature the formula search used) and ``fragment_checks`` (per candidate formula)."""
+    purity: dict[str, Any] | None = None
+    """One compound or several: ``call`` ('single compound', 'major compound with impurities', 'mixture',
+    'undecided'), ``label`` (with 'about x %'), ``share_pct``, ``evidence`` (lines), ``candidate`` and ``residual_sets``."""
     error: str | None = None
     notes: tuple[str, ...] = ()
     """What the run could not do for this well and why (e.g. a stage not installed)."""

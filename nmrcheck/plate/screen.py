@@ -52,6 +52,10 @@ class ScreenOptions:
     """Atom % D of the solvent lot."""
     next_experiment: str = "1H-13C HSQC"
     """Experiment the go/no-go recommendation is for (a name in the quantification thresholds)."""
+    standard: str | None = None
+    """Internal standard in every tube (a name in the standards table); None: the residual solvent line is the reference."""
+    standard_nmol: float | None = None
+    """Amount of the internal standard in each tube, nmol."""
     library: str | None = None
     """Indexed known-compound library (:func:`nmrcheck.ms.library.open_library`); its matches join the candidates."""
     genus: str | None = None
@@ -67,6 +71,12 @@ class ScreenOptions:
             raise ParameterError(f"max_formulas: must be >= 1, got {self.max_formulas}")
         if self.trace_bins < 16:
             raise ParameterError(f"trace_bins: must be >= 16, got {self.trace_bins}")
+        if (self.standard is None) != (self.standard_nmol is None):
+            raise ParameterError("standard, standard_nmol: give both (the standard and its amount in each tube) or neither")
+        if not 0 < self.solvent_volume_ul <= 2000:
+            raise ParameterError(f"solvent_volume_ul: {self.solvent_volume_ul} uL is outside 0..2000")
+        if not 90 <= self.deuteration_pct <= 100:
+            raise ParameterError(f"deuteration_pct: {self.deuteration_pct} is outside 90..100 atom % D")
 
     def as_dict(self) -> dict[str, Any]:
         d = dataclasses.asdict(self)
@@ -260,24 +270,36 @@ def _check_record(key: str, verdict, evidence) -> dict[str, Any]:
     }
 
 
-def _validate(processed, spec: WellSpec, options: ScreenOptions, objects: list[Any], records: list[dict[str, Any]], notes: list[str]) -> list[dict[str, Any]] | None:
-    """One check record per candidate from the validation stage; None when the stage is not installed."""
+def _validate(processed, spec: WellSpec, options: ScreenOptions, objects: list[Any], records: list[dict[str, Any]], notes: list[str], found: dict[str, Any] | None = None) -> list[dict[str, Any]] | None:
+    """One check record per candidate from the validation stage; None when the stage is not installed.
+
+    ``found`` receives the well's ``purity`` record and the amount ``basis`` (the manifest's own
+    claims first, then the search's; never an inconsistent candidate).
+    """
     try:
-        from nmrcheck.validate import MsFeature, check_candidates, evidence_from
+        from nmrcheck.validate import MsFeature, amount_basis, check_candidates, evidence_from, purity_of
     except ImportError:
         return None
+    found = {} if found is None else found
     ms = None
     if spec.ms_features:
         try:
             ms = MsFeature(ions=tuple(spec.ms_features), ppm=options.mass_tolerance_ppm, isotopes=spec.isotopes)
         except NmrcheckError as exc:
             notes.append(f"MS feature not used in the checks: {exc}")
-    evidence = evidence_from(processed, ms)
+    from nmrcheck.validate.purity import well_features_from
+
+    evidence = evidence_from(processed, ms, ms_features=well_features_from(spec.lcms) if spec.lcms else ())
     pairs = [(rec["key"], obj) for rec, obj in zip(records, objects) if obj is not None]
     if not pairs:
         return []
     by_id = {id(obj): key for key, obj in pairs}
     verdicts = check_candidates([obj for _, obj in pairs], evidence)
+    named = {r["key"] for r in records if str(r.get("source", "")).startswith("manifest")}
+    own = [v for v in verdicts if by_id[id(v.candidate)] in named and v.verdict != "inconsistent"]
+    basis = amount_basis(own, evidence) if own else amount_basis(verdicts, evidence)
+    found["basis"] = basis
+    found["purity"] = purity_of(own or verdicts, evidence).as_dict()
     return [_check_record(by_id[id(v.candidate)], v, evidence) for v in verdicts]
 
 
@@ -338,37 +360,65 @@ def _verdict_of(checks: list[dict[str, Any]] | None, records: list[dict[str, Any
     return "undecided"
 
 
-def _quantify(processed, options: ScreenOptions, checks: list[dict[str, Any]] | None, records: list[dict[str, Any]], notes: list[str]) -> tuple[dict[str, Any] | None, dict[str, Any] | None]:
-    """Amount against the residual solvent signal and the go/no-go for the next experiment.
+def _amount_settings(spec: WellSpec, options: ScreenOptions) -> dict[str, Any]:
+    """The well's amount settings: its manifest columns over the plate's options."""
+    own = dict(spec.amount_settings)
+    return {
+        "volume_ul": float(own.get("volume_ul", options.solvent_volume_ul)),
+        "deuteration_pct": float(own.get("deuteration_pct", options.deuteration_pct)),
+        "standard": own.get("standard", options.standard),
+        "standard_nmol": own.get("standard_nmol", options.standard_nmol if "standard" not in own else None),
+        "next_experiment": str(own.get("next_experiment", options.next_experiment)),
+    }
 
-    The amount is that of the well's lead candidate (the manifest's own before the HRMS search's,
-    best verdict first) from the protons its count assigns; without a checked candidate it is
-    the amount per proton unit.
+
+def _quantify(processed, spec: WellSpec, options: ScreenOptions, basis: Any, notes: list[str]) -> tuple[dict[str, Any] | None, dict[str, Any] | None]:
+    """Amount of the well's sound lead candidate and the go/no-go for the next experiment.
+
+    The reference is the internal standard when one is set (plate or well), else the residual
+    solvent line. The amount is that of ``basis`` (:func:`nmrcheck.validate.amount_basis`: the
+    best candidate that is not inconsistent, on its own signals and protons); when there is none,
+    or the amount is refused, the well gets no amount and a note saying why.
     """
     try:
         from nmrcheck.quant import QuantOptions
     except ImportError:
         notes.append("quantification stage not installed: no amount or go/no-go recommendation")
         return None, None
-    if not processed.spectrum.solvent:
-        notes.append("no amount: the solvent is unknown, so its residual signal cannot serve as the reference")
-        return None, None
-    quant = QuantOptions(solvent_reference=True, deuteration_pct=options.deuteration_pct, volume_ul=options.solvent_volume_ul, experiment=options.next_experiment)
-    amount = quant.amount(processed)
-    lead = None
-    if checks:
-        named = {r["key"] for r in records if str(r.get("source", "")).startswith("manifest")}
-        lead = min(checks, key=lambda c: (c["key"] not in named, _VERDICT_ORDER.index(c["verdict"]) if c["verdict"] in _VERDICT_ORDER else 9, c["rank"]))
-    result = quant.assess(amount, processed, candidates=[(lead["formula"], lead.get("counted_h"))] if lead else ())
-    if result.candidates:
-        head = result.candidates[0][0].as_dict()
-        basis = f"{head['candidate']} ({head['n_h']:g} H)"
+    settings = _amount_settings(spec, options)
+    if settings["standard"]:
+        quant = QuantOptions(standard=settings["standard"], standard_nmol=settings["standard_nmol"], volume_ul=settings["volume_ul"], experiment=settings["next_experiment"])
     else:
+        if not processed.spectrum.solvent:
+            notes.append("no amount: the solvent is unknown, so its residual signal cannot serve as the reference")
+            return None, None
+        quant = QuantOptions(solvent_reference=True, deuteration_pct=settings["deuteration_pct"], volume_ul=settings["volume_ul"], experiment=settings["next_experiment"])
+    if basis is None or basis == "no candidate was checked":
+        # no hypothesis at all: the protons integrated, per proton (no mass, no candidate)
+        suppressed = quant.suppressed_reference(processed)
+        if suppressed:
+            notes.append(suppressed)
+            return None, None
+        amount = quant.amount(processed)
+        refused = quant.refusal(amount, processed)
+        if refused:
+            notes.append(refused)
+            return None, None
+        result = quant.assess(amount, processed)
         head = amount.brief()
-        basis = f"per {head['per']}"
+        out = {k: head[k] for k in ("nmol", "ug", "conc_mM", "uncertainty_pct", "method")}
+        out.update(basis=f"per {head['per']}", candidate=None, settings=settings, per_proton=head, details=plain(amount))
+        return out, result.recommendation.as_dict()
+    result = quant.for_candidate(processed, basis)
+    if result.refused:
+        notes.append(result.refused)
+        return None, None
+    a, rec = result.candidates[0]
+    head = a.as_dict()
     out: dict[str, Any] = {k: head[k] for k in ("nmol", "ug", "conc_mM", "uncertainty_pct", "method")}
-    out.update(basis=basis, candidate=head if result.candidates else None, per_proton=amount.brief(), details=plain(amount))
-    return out, result.recommendation.as_dict()
+    out.update(basis=f"{head['candidate']} ({head['n_h']:g} H)", candidate=head, settings=settings,
+               per_proton=result.amount.brief(), details=plain(result.amount))
+    return out, rec.as_dict()
 
 
 def screen_well(spec: WellSpec, directory: str, options: ScreenOptions) -> WellResult:
@@ -441,8 +491,9 @@ def screen_well(spec: WellSpec, directory: str, options: ScreenOptions) -> WellR
         if processed.count is None:
             notes.append("no analyte signal above the noise threshold: the well looks empty")
             return WellResult(status="empty", verdict="empty", candidates=tuple(candidates), timings=clock.timings, notes=tuple(notes), **common, **base)
+        found: dict[str, Any] = {}
         try:
-            checks = _validate(processed, spec, options, objects, candidates, notes)
+            checks = _validate(processed, spec, options, objects, candidates, notes, found)
         except NmrcheckError as exc:
             checks = None
             notes.append(f"candidates not checked: {exc}")
@@ -451,7 +502,7 @@ def screen_well(spec: WellSpec, directory: str, options: ScreenOptions) -> WellR
             _fragment_checks(spec, base["lcms"], candidates, checks, notes)
             clock.lap("msms")
         try:
-            amount, recommendation = _quantify(processed, options, checks, candidates, notes)
+            amount, recommendation = _quantify(processed, spec, options, found.get("basis"), notes)
         except NmrcheckError as exc:
             amount, recommendation = None, None
             notes.append(f"no amount estimated: {exc}")
@@ -463,6 +514,7 @@ def screen_well(spec: WellSpec, directory: str, options: ScreenOptions) -> WellR
             checks=tuple(checks or ()),
             amount=amount,
             recommendation=recommendation,
+            purity=found.get("purity"),
             timings=clock.timings,
             notes=tuple(notes),
             **common,

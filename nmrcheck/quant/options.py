@@ -9,18 +9,20 @@ from __future__ import annotations
 import math
 
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any
 
-from nmrcheck.errors import ParameterError
+from nmrcheck.errors import NmrcheckError, ParameterError
 from nmrcheck.processing import ProcessingOptions, process
 from nmrcheck.processing.results import Processed
 from nmrcheck.quant.amount import Amount, CandidateAmount, amount_for, quantify
 from nmrcheck.quant.recommend import Recommendation, recommend
 from nmrcheck.quant.references import ExternalCalibration, SolventReference, StandardReference
 
-__all__ = ["DEFAULT_EXPERIMENT", "QuantOptions", "QuantResult", "parse_ppm_range"]
+__all__ = ["MAX_UNCERTAINTY_PCT", "DEFAULT_EXPERIMENT", "QuantOptions", "QuantResult", "parse_ppm_range"]
 
+#: An amount whose uncertainty exceeds this (%) is not reported: it would not tell go from no-go.
+MAX_UNCERTAINTY_PCT = 50.0
 #: Next experiment the go/no-go is for when none is named (a name in recommendation_defaults.csv).
 DEFAULT_EXPERIMENT = "1H-13C HSQC"
 
@@ -48,16 +50,21 @@ def parse_ppm_range(text: str | tuple[float, float] | None, option: str) -> tupl
 class QuantResult:
     """The amount in the tube and the go/no-go, per proton unit and per candidate."""
 
-    amount: Amount
-    recommendation: Recommendation
-    """For the first candidate when there are candidates, else for the per-proton amount (nmol only)."""
+    amount: Amount | None
+    """None when the reference could not be measured at all (the refusal says why)."""
+    recommendation: Recommendation | None
+    """For the first candidate when there are candidates, else for the per-proton amount (nmol only);
+    None when the amount is refused."""
     candidates: tuple[tuple[CandidateAmount, Recommendation], ...] = ()
+    refused: str | None = None
+    """One line saying why no amount is given (reference line suppressed, uncertainty too large, no sound candidate)."""
 
     def as_dict(self) -> dict[str, Any]:
         return {
-            "amount": self.amount.brief(),
-            "recommendation": self.recommendation.as_dict(),
+            "amount": None if self.amount is None else self.amount.brief(),
+            "recommendation": None if self.recommendation is None else self.recommendation.as_dict(),
             "candidates": [{"amount": a.as_dict(), "recommendation": r.as_dict()} for a, r in self.candidates],
+            "refused": self.refused,
         }
 
 
@@ -176,6 +183,62 @@ class QuantOptions:
         :func:`nmrcheck.quant.quantify` (``analyte_range_ppm``, ``analyte_h``, ``longest_t1_s``, ...).
         """
         return quantify(processed, method=self.method(processed, processing=processing), **quantify_options)
+
+    def suppressed_reference(self, processed: Processed) -> str | None:
+        """With the solvent reference: why its residual line cannot serve (it lies in a suppression zone), or None."""
+        if not self.solvent_reference or not processed.spectrum.solvent:
+            return None
+        from nmrcheck.quant.references import solvent_info
+
+        try:
+            info = solvent_info(processed.spectrum.solvent)
+        except NmrcheckError:
+            return None
+        lo, hi = info.residual_ppm - info.half_width_ppm, info.residual_ppm + info.half_width_ppm
+        for r in processed.regions:
+            text = f"{r.label or ''} {r.flag or ''}"
+            if "suppression" in text and min(r.start_ppm, r.end_ppm) < hi and max(r.start_ppm, r.end_ppm) > lo:
+                return (f"no amount: the solvent line the amount would be measured against ({info.residual_ppm:.2f} ppm) lies in the "
+                        f"solvent-suppression zone {min(r.start_ppm, r.end_ppm):.2f}-{max(r.start_ppm, r.end_ppm):.2f} ppm, so its integral does not measure the solvent")
+        return None
+
+    def refusal(self, amount: Amount, processed: Processed) -> str | None:
+        """Why ``amount`` must not be reported (one line), or None.
+
+        Refused when the reference line lies in a solvent-suppression zone (its integral then
+        measures the suppression, not the solvent) or when the uncertainty exceeds
+        :data:`MAX_UNCERTAINTY_PCT`.
+        """
+        ref = amount.reference_range_ppm
+        if ref is not None:
+            lo, hi = min(ref), max(ref)
+            for r in processed.regions:
+                text = f"{r.label or ''} {r.flag or ''}"
+                if "suppression" in text and min(r.start_ppm, r.end_ppm) < hi and max(r.start_ppm, r.end_ppm) > lo:
+                    return (f"no amount: the reference line ({amount.reference}) lies in the solvent-suppression zone "
+                            f"{min(r.start_ppm, r.end_ppm):.2f}-{max(r.start_ppm, r.end_ppm):.2f} ppm, so its integral does not measure the solvent")
+        if amount.uncertainty_pct is not None and amount.uncertainty_pct > MAX_UNCERTAINTY_PCT:
+            return f"no amount: its uncertainty ({amount.uncertainty_pct:.0f} %) exceeds {MAX_UNCERTAINTY_PCT:g} %"
+        return None
+
+    def for_candidate(self, processed: Processed, basis: Any, *, processing: ProcessingOptions | None = None) -> QuantResult:
+        """Amount of one candidate on its own signals: ``basis`` has ``label``, ``formula``, ``n_h`` and
+        ``ranges_ppm`` (see :class:`nmrcheck.validate.basis.AmountBasis`), or is a string saying why there is no
+        sound candidate (then only the per-proton amount is measured, and the amount is refused)."""
+        suppressed = self.suppressed_reference(processed)
+        if suppressed:
+            return QuantResult(None, None, (), suppressed)
+        if isinstance(basis, str):
+            amount = self.amount(processed, processing=processing)
+            return QuantResult(amount, None, (), f"no amount: {basis}")
+        amount = self.amount(processed, processing=processing, analyte_range_ppm=list(basis.ranges_ppm), analyte_h=float(basis.n_h))
+        refused = self.refusal(amount, processed)
+        if refused:
+            return QuantResult(amount, None, (), refused)
+        a = amount_for(amount, basis.formula, n_h=float(basis.n_h))
+        a = replace(a, label=f"{basis.label} ({basis.formula.hill})" if basis.label != basis.formula.hill else a.label)
+        rec = self.recommend(a, amount.snr, processed)
+        return QuantResult(amount, rec, ((a, rec),))
 
     def assess(self, amount: Amount, processed: Processed, *, candidates: Sequence[tuple[Any, float | None]] = ()) -> QuantResult:
         """The go/no-go for ``amount``, and the amount and go/no-go of each candidate.

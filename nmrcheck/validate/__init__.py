@@ -27,8 +27,11 @@ from nmrcheck.validate.records import (
     Evidence,
     MsFeature,
     ObservedRegion,
+    WellFeature,
 )
 from nmrcheck.validate.verdict import check_candidate, check_candidates, rank_verdicts
+from nmrcheck.validate.purity import Purity, purity_of
+from nmrcheck.validate.basis import AmountBasis, amount_basis
 
 __all__ = [
     "STATUSES",
@@ -40,6 +43,11 @@ __all__ = [
     "Evidence",
     "MsFeature",
     "ObservedRegion",
+    "WellFeature",
+    "Purity",
+    "AmountBasis",
+    "amount_basis",
+    "purity_of",
     "candidates_from_entries",
     "candidates_from_file",
     "candidates_from_ms",

@@ -183,12 +183,15 @@ def _distance(ppm: float, low: float, high: float) -> float:
     return max(0.0, low - ppm, ppm - high)
 
 
-def _hidden_by(ppm: float, tol: float, evidence: Evidence) -> str | None:
+def _hidden_by(ppm: float, tol: float, evidence: Evidence) -> tuple[str, float] | None:
+    """(label, distance in tolerances) of the nearest flagged solvent/water/suppression region within one tolerance."""
+    best = None
     for start, end, label in evidence.flagged:
         lo, hi = min(start, end), max(start, end)
-        if _distance(ppm, lo, hi) <= tol and not label.startswith("integral under") and "satellite" not in label:
-            return label
-    return None
+        z = _distance(ppm, lo, hi) / tol
+        if z <= 1.0 and not label.startswith("integral under") and "satellite" not in label and (best is None or z < best[1]):
+            best = (label, z)
+    return best
 
 
 def _multiplet_problem(m: Multiplet, region: ObservedRegion) -> str | None:
@@ -330,8 +333,9 @@ def assign(candidate: Candidate, evidence: Evidence, *, predictor: ShiftPredicto
     hidden = []
     for e, required, tol, _ in kept:
         h = None if e.exchangeable else _hidden_by(e.ppm, tol, evidence)
-        hidden.append(h)
-        miss.append(OPTIONAL_COST if not required else HIDDEN_COST if h else MISSING_COST)
+        hidden.append(h[0] if h else None)
+        # hiding is cheap only where the prediction falls on the flagged zone itself
+        miss.append(OPTIONAL_COST if not required else HIDDEN_COST + 4.0 * h[1] ** 2 if h else MISSING_COST)
     n_h = np.array([e.n_h for e, *_ in kept])
     miss = np.array(miss)
     item_env = np.repeat(np.arange(len(kept)), n_h)

@@ -237,6 +237,21 @@ def _hidden_under_flagged(candidate: Candidate, evidence: Evidence) -> int:
     return n
 
 
+#: Solvents that exchange O-H/N-H for D (or average them with the suppressed water): every exchangeable H may be unseen.
+EXCHANGING_SOLVENTS = frozenset({"D2O", "CD3OD", "H2O/D2O"})
+#: In an aprotic solvent, exchangeable H that are not seen at all: at most this many (one broad OH, NH or COOH
+#: lost in the baseline or merged with the water line is common; the others show as lines, sharp in
+#: DMSO-d6 and acetone-d6, broad in CDCl3; common practice).
+MAX_UNSEEN_APROTIC = 1
+
+
+def unseen_exchangeable(bound: int, evidence: Evidence) -> int:
+    """How many of a bare formula's (up to ``bound``) exchangeable H may go unseen in this spectrum's solvent."""
+    if evidence.solvent is None or evidence.solvent in EXCHANGING_SOLVENTS:
+        return bound
+    return min(bound, MAX_UNSEEN_APROTIC)
+
+
 def expected_visible(candidate: Candidate, evidence: Evidence) -> tuple[int, int, str]:
     """(least, most) H the candidate should show in this spectrum, and a phrase saying why."""
     solvent = evidence.solvent or "unknown"
@@ -250,8 +265,11 @@ def expected_visible(candidate: Candidate, evidence: Evidence) -> tuple[int, int
             why += f"; up to {hidden} may hide under the solvent/water signal"
         return max(1, lo - hidden), hi, why
     lo, hi, _, bound = visible_h(candidate, evidence)
+    unseen = unseen_exchangeable(bound, evidence)
     why = f"{hi} H in the formula, of which up to {bound} could be exchangeable (from its heteroatoms)"
-    return max(1, lo), hi, why
+    if unseen < bound:
+        why += f"; in {evidence.solvent} at most {unseen} of them can go unseen"
+    return max(1, hi - unseen), hi, why
 
 
 def _fmt_range(lo: float, hi: float, digits: int = 0) -> str:
@@ -265,7 +283,25 @@ def best_fit(candidate: Candidate, evidence: Evidence) -> CountFit | None:
     lo, hi, _ = expected_visible(candidate, evidence)
     integrals = [r.integral for r in evidence.regions]
     fits = [fit_count(integrals, n) for n in range(lo, hi + 1)]
+    if candidate.mol is None:
+        # a formula's H may also sit under a water line the processing set aside (analyte multiplets
+        # there are flagged with it): fewer counted H are allowed, by what that line holds at the unit
+        for n in range(max(1, lo - 4), lo):
+            f = fit_count(integrals, n)
+            if n + water_capacity(evidence, f.unit) >= lo:
+                fits.append(f)
     return min(fits, key=lambda f: (not f.fits, f.badness))
+
+
+def water_capacity(evidence: Evidence, unit: float) -> int:
+    """Whole protons the flagged water lines hold at ``unit`` (analyte H may lie under them)."""
+    if not evidence.flagged_integrals or unit <= 0:
+        return 0
+    total = 0
+    for (_, _, label), integral in zip(evidence.flagged, evidence.flagged_integrals):
+        if label in ("H2O", "HOD", "HDO") and integral > 0:
+            total += int(round(integral / unit))
+    return total
 
 
 def check_proton_count(candidate: Candidate, evidence: Evidence) -> CheckResult:

@@ -49,6 +49,7 @@ def evidence_from(processed: Processed, ms_feature: MsFeature | None = None, *, 
     """Evidence from a :class:`~nmrcheck.processing.Processed` result, an optional MS feature and the well's other MS features."""
     regions = []
     flagged = []
+    flagged_integrals: list[float] = []
     for r in processed.regions:
         if r.counted:
             if r.integral > 0:
@@ -57,6 +58,7 @@ def evidence_from(processed: Processed, ms_feature: MsFeature | None = None, *, 
                 regions.append(ObservedRegion(r.start_ppm, r.end_ppm, float(r.integral), float(peak), lines, spread, width))
         else:
             flagged.append((r.start_ppm, r.end_ppm, r.label or r.flag or "flagged"))
+            flagged_integrals.append(float(r.integral))
     c = processed.count
     return Evidence(
         source=str(processed.spectrum.source),
@@ -70,5 +72,6 @@ def evidence_from(processed: Processed, ms_feature: MsFeature | None = None, *, 
         ms=ms_feature,
         warnings=tuple(processed.warnings),
         spectrometer_mhz=float(processed.spectrum.spectrometer_mhz),
+        flagged_integrals=tuple(flagged_integrals),
         ms_features=tuple(ms_features),
     )

@@ -101,6 +101,8 @@ class Evidence:
     ms: MsFeature | None = None
     warnings: tuple[str, ...] = ()
     spectrometer_mhz: float | None = None
+    flagged_integrals: tuple[float, ...] = ()
+    """Integral of each ``flagged`` region (same order); empty when not measured."""
     ms_features: tuple["WellFeature", ...] = ()
     """Other MS features of the same well with their share of the ion current (purity evidence); may be empty."""
 
@@ -150,6 +152,10 @@ class CandidateVerdict:
         overlapping ``exclude_ppm`` (e.g. an internal standard's range); None without a count."""
         check = self.check("proton count")
         whole = check.details.get("whole") if check is not None else None
+        assigned = self.check("assignment")
+        if assigned is not None and assigned.details.get("assignment") is not None:
+            # a structure: the protons its assignment gave each region
+            whole = assigned.details["assignment"].region_assigned
         if not whole:
             return None
         hi, lo = (max(exclude_ppm), min(exclude_ppm)) if exclude_ppm else (None, None)

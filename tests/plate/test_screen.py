@@ -90,3 +90,51 @@ def test_exports_and_report_show_amount_and_recommendation(results, tmp_path):
     html = render_plate_report(results)
     assert a1["amount"] in html and "go: 1H-13C HSQC" in html  # the next step names its experiment
     assert "reaches the 30 nmol" in html  # the reason, from the recommendation
+
+
+def test_demo_caffeine_wells_use_ten_protons(tmp_path):
+    """Caffeine (C8H10N4O2) shows all 10 of its H in CDCl3 (three N-CH3 and one CH, no exchangeable H):
+    the demo's caffeine wells take their amount from those 10 H, never from an anchor of 3."""
+    from nmrcheck.demo import build_demo_plate, demo_wells
+
+    wells = tuple(w for w in demo_wells() if w.content == "caffeine" and w.claimed == "caffeine")
+    assert wells
+    plate = read_manifest(build_demo_plate(tmp_path, wells=wells))
+    for spec in plate.wells:
+        r = screen_well(spec, plate.directory, ScreenOptions())
+        assert r.amount is not None, r.notes
+        assert r.amount["candidate"]["n_h"] == 10, r.amount["basis"]
+        assert r.purity["call"] == "single compound"
+
+
+def test_no_amount_from_an_inconsistent_candidate(tmp_path):
+    """A well claimed as propan-1-ol that holds MTBE: the structure is inconsistent, so no amount, with the reason."""
+    lines = [Line(1.19, 9 * NMOL * UNIT), Line(3.22, 3 * NMOL * UNIT), Line(7.26, RESIDUAL_NMOL_H * UNIT)]
+    write_bruker_fid(simulate_fid(lines, noise=0.002, solvent="CDCl3", seed=5), tmp_path / "fids" / "A1")
+    (tmp_path / "manifest.csv").write_text("well,spectrum,structures\nA1,fids/{well},propanol: CCCO\n", encoding="utf-8")
+    plate = read_manifest(tmp_path / "manifest.csv")
+    r = screen_well(plate.well("A1"), plate.directory, OPTIONS)
+    assert r.verdict == "inconsistent"
+    assert r.amount is None and r.recommendation is None
+    assert any(n.startswith("no amount: every candidate is inconsistent") for n in r.notes)
+
+
+def test_amount_settings_per_well_from_the_manifest(tmp_path):
+    """A well's own volume and next experiment override the plate's; an internal standard replaces the solvent line."""
+    # DSS-d6 (9 H singlet at 0.00 ppm) and methyl tert-butyl ether in D2O
+    lines = [Line(0.0, 9 * 40.0 * UNIT), Line(1.22, 9 * NMOL * UNIT), Line(3.25, 3 * NMOL * UNIT)]
+    write_bruker_fid(simulate_fid(lines, noise=0.002, solvent="D2O", seed=6), tmp_path / "fids" / "A1")
+    (tmp_path / "manifest.csv").write_text(
+        "well,spectrum,formulas,standard,standard_nmol,volume_ul,next_experiment\nA1,fids/{well},C5H12O,no-such-standard,40,50,1H-13C HMBC\n", encoding="utf-8")
+    from nmrcheck.plate.manifest import ManifestError
+
+    with pytest.raises(ManifestError, match="standard"):
+        read_manifest(tmp_path / "manifest.csv")
+    (tmp_path / "manifest.csv").write_text(
+        "well,spectrum,formulas,standard,standard_nmol,volume_ul,next_experiment\nA1,fids/{well},C5H12O,DSS-d6,40,50,1H-13C HMBC\n", encoding="utf-8")
+    plate = read_manifest(tmp_path / "manifest.csv")
+    r = screen_well(plate.well("A1"), plate.directory, OPTIONS)
+    assert r.amount["settings"]["volume_ul"] == 50.0 and r.amount["method"] == "internal standard"
+    assert r.amount["nmol"] == pytest.approx(NMOL, rel=0.03)  # 12 H against DSS-d6's 9 H at 40 nmol
+    assert r.amount["conc_mM"] == pytest.approx(NMOL / 50.0, rel=0.03)
+    assert r.recommendation["experiment"].lower() == "1h-13c hmbc"
