@@ -33,6 +33,8 @@ SINGLE_BELOW_PCT = 8.0
 MAJOR_FROM_PCT = 60.0
 #: An MS feature at or above this share of the well's ion current is a major one (as in nmrcheck.ms).
 MS_MAJOR_PCT = 10.0
+#: A single line this close to the solvent's water position is taken for water (its shift moves with temperature and pH).
+WATER_WINDOW_PPM = 0.1
 #: A signal that holds at least this share of the counted integral counts as resolved (against the candidates' H).
 SIGNAL_SHARE = 0.01
 #: A residual set's lines must be this close (H) to whole numbers of their own unit.
@@ -210,7 +212,7 @@ def purity_of(verdicts: Iterable[CandidateVerdict], evidence: Evidence) -> Purit
             if extra_h >= 0.3:
                     notes.append(f"broad line at {r.peak_ppm:.2f} ppm ({extra_h:.1f} H, {r.linewidth_hz:.0f} Hz wide) taken for exchangeable H or water, not an impurity")
             continue
-        if water is not None and abs(r.peak_ppm - water) <= 0.2 and (r.lines or 1) <= 2:
+        if water is not None and abs(r.peak_ppm - water) <= WATER_WINDOW_PPM and (r.lines or 1) <= 1:
             notes.append(f"singlet at {r.peak_ppm:.2f} ppm next to the water position ({water:.2f}) taken for water, not an impurity")
             continue
         signals.append((r.peak_ppm, integral))
