@@ -148,7 +148,7 @@ def test_closed_output_pipe_is_quiet(tmp_path, experiment):
 
 # --- hangs and runaway memory: real subprocesses under limits --------------------------------
 
-_LIMIT_BYTES = 3 * 1024**3
+_LIMIT_BYTES = 4 * 1024**3
 
 
 def _limited():
