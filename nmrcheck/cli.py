@@ -541,9 +541,12 @@ def quant_command(spectrum, analyte_range, analyte_h, candidate, longest_t1, as_
 @click.option("--library", "library", type=click.Path(exists=True, dir_okay=False), default=None, help="Known compounds (CSV/SMILES/SD file or index): those at the feature's mass become candidates.")
 @click.option("--genus", default=None, help="Genus of the organism (ranks known compounds).")
 @click.option("--family", default=None, help="Family of the organism (ranks known compounds).")
+@click.option("--rt", "rt_min", type=Number(0, 1000), default=None, help="Retention time of the compound, minutes (with --retention-calibration).")
+@click.option("--retention-calibration", "retention_calibration", type=click.Path(exists=True, dir_okay=False), default=None,
+              help="Reference compounds on the same gradient (CSV: rt_min, logp or smiles): checks --rt against each structure's Crippen logP.")
 @user_errors
 @quant_options
-def check_command(spectrum, formulas, smiles, candidates_file, mz, ion, ppm_tol, isotopes, solvent, as_json, plot_path, library, genus, family, quant):
+def check_command(spectrum, formulas, smiles, candidates_file, mz, ion, ppm_tol, isotopes, solvent, as_json, plot_path, library, genus, family, rt_min, retention_calibration, quant):
     """Check candidate formulas and structures against SPECTRUM and an MS feature.
 
     With an MS feature and no candidates, the formula engine proposes them. The well's purity
@@ -589,6 +592,12 @@ def check_command(spectrum, formulas, smiles, candidates_file, mz, ion, ppm_tol,
         raise _ParameterError("no usable candidate: give --formula, --smiles, --candidates or an MS feature (--mz/--ion)")
     evidence = evidence_from(processed, ms)
     verdicts = check_candidates(cands, evidence)
+    if rt_min is not None or retention_calibration:
+        if rt_min is None or not retention_calibration:
+            raise _ParameterError("--rt and --retention-calibration: give both to check retention")
+        from nmrcheck.validate.retention import calibration_model, with_retention
+
+        verdicts = with_retention(verdicts, rt_min, calibration_model(retention_calibration))
     if plot_path:
         from nmrcheck.report.check_plot import plot_check
 

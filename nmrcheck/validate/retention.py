@@ -172,3 +172,15 @@ def calibration_model(path) -> RetentionModel:
             logp = crippen_logp(mol)
         points.append((logp, ref.rt_min))
     return fit_retention(points, source=f"calibration {Path(path).name}")
+
+
+def with_retention(verdicts, rt_min: float | None, model: RetentionModel | None) -> tuple:
+    """The verdicts with each candidate's 'retention' check added (a warning joins its reasons; verdicts unchanged)."""
+    import dataclasses
+
+    out = []
+    for v in verdicts:
+        result = check_retention(v.candidate.mol, rt_min, model)
+        reasons = v.reasons + ((f"retention: {result.explanation}",) if result.status == "warn" else ())
+        out.append(dataclasses.replace(v, checks=v.checks + (result,), reasons=reasons))
+    return tuple(out)

@@ -52,3 +52,28 @@ def test_check_with_a_known_compound_library(refdata, tmp_path, monkeypatch):
     assert labels == {"anethole (known; genus pimpinella)", "estragole (known; other taxa artemisia)"}
     best = min(doc["candidates"], key=lambda c: c["rank"])
     assert best["label"].startswith("estragole")  # the spectrum decides, not the taxon
+
+
+def test_check_with_retention_calibration(refdata, tmp_path):
+    """Estragole (Crippen logP 2.68, RDKit) at 7.4 min on a synthetic gradient t = 2 + 2 logP min."""
+    from rdkit import Chem
+    from rdkit.Chem import Crippen
+
+    fid = Path(refdata) / "jcamp-fid" / "140-67-0" / "1h.fid.dx"
+    calibration = tmp_path / "calibration.csv"
+    rows = ["name,smiles,rt_min"] + [f"{n},{s},{2 + 2 * Crippen.MolLogP(Chem.MolFromSmiles(s)):.3f}" for n, s in (
+        ("ethanol", "CCO"), ("phenol", "c1ccccc1O"), ("benzene", "c1ccccc1"), ("toluene", "Cc1ccccc1"), ("naphthalene", "c1ccc2ccccc2c1"))]
+    calibration.write_text("\n".join(rows) + "\n")
+    base = ["check", str(fid), "--smiles", "C=CCc1ccc(OC)cc1 estragole", "--mz", "149.09609", "--ion", "[M+H]+", "--json",
+            "--retention-calibration", str(calibration)]
+    logp = Crippen.MolLogP(Chem.MolFromSmiles("C=CCc1ccc(OC)cc1"))
+    on_time = CliRunner().invoke(main, [*base, "--rt", f"{2 + 2 * logp + 0.1:.2f}"])
+    assert on_time.exit_code == 0, on_time.output
+    check = next(c for c in json.loads(on_time.stdout)["candidates"][0]["checks"] if c["name"] == "retention")
+    assert check["status"] == "pass"
+    late = CliRunner().invoke(main, [*base, "--rt", f"{2 + 2 * logp + 3:.2f}"])
+    cand = json.loads(late.stdout)["candidates"][0]
+    assert next(c for c in cand["checks"] if c["name"] == "retention")["status"] == "warn"
+    assert any(r.startswith("retention: ") for r in cand["reasons"])
+    alone = CliRunner().invoke(main, [*base[:-2], "--rt", "7"])
+    assert alone.exit_code == 2 and "give both" in alone.output
