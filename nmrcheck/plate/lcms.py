@@ -145,7 +145,7 @@ def attach_run(manifest, run, timetable, *, collector_delay_min: float = 0.0, op
 
 def features_text(lcms: PlateLcms) -> str:
     """One line per well (its features with shares) and one per MS/MS group."""
-    lines = [f"{lcms.run}: {lcms.scans} spectra; {len(lcms.wells)} wells; collector delay {lcms.collector_delay_min:g} min"]
+    lines = [f"{lcms.run}: {lcms.scans} spectra; {len(lcms.wells)} wells; collector delay {lcms.collector_delay_min:g} min (windows below as seen at the detector)"]
     for well, m in lcms.wells.items():
         a, b = m.detector_window_min
         if not m.features:

@@ -125,6 +125,10 @@ def test_plate_run_with_the_run_records_features_fragment_checks_and_groups(plat
     assert [c for c in checks["C8H10N4O2"]["checks"] if c["name"] == "fragments"][0]["status"] == "pass"
     record = load_lcms(out)
     assert record["groups"] and record["collector_delay_min"] == DEMO_DELAY_MIN
+    # The same command again resumes: the run gives the same LC-MS records, so nothing is redone.
+    again = CliRunner().invoke(main, ["plate", "run", str(edited), "--out", str(out), "--workers", "1", "--no-report",
+                                      "--lcms", str(run), "--timetable", str(table), "--collector-delay-min", str(DEMO_DELAY_MIN)])
+    assert again.exit_code == 0 and "0 screened" in again.output, again.output
 
 
 def test_plate_run_needs_both_run_and_timetable(plate, tmp_path):
