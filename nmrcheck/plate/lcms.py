@@ -350,7 +350,8 @@ def fragment_checks(record: dict[str, Any], formulas: list[str], *, neutral_mass
     -------
     list of dict
         One :meth:`FragmentCheck.as_dict` per formula that has an MS/MS spectrum to meet, with
-        the spectrum's precursor and scans.
+        the spectrum's precursor, its scans and ``co_isolated_mz``: ions of other features eluting
+        then within 1.5 u of the precursor (fragmented with it, so a contradiction is only a doubt).
     """
     feature = _feature_for(record, neutral_mass, max(10.0, tolerance_ppm))
     if feature is None or not feature.get("ms2"):
@@ -358,6 +359,13 @@ def fragment_checks(record: dict[str, Any], formulas: list[str], *, neutral_mass
     spectra = [Ms2Spectrum.from_dict(s) for s in feature["ms2"]]
     order = {i["species"]: k for k, i in enumerate(feature["ions"])}
     spectrum = min(spectra, key=lambda s: order.get(s.species, 99))
+    # Ions of other features that co-elute within a typical isolation window (+-1.5 u) may have been
+    # fragmented with the precursor: their fragments are no evidence against the candidate.
+    co_isolated = sorted(
+        round(i["mz"], 4)
+        for f in record.get("features") or [] if f is not feature and f["rt_start_min"] <= spectrum.rt_min <= f["rt_end_min"]
+        for i in f["ions"] if abs(i["mz"] - spectrum.precursor_mz) <= 1.5
+    )
     out = []
     for formula in dict.fromkeys(formulas):
         check = check_fragments(formula, spectrum.species, spectrum.mz, spectrum.intensity, precursor_mz=spectrum.precursor_mz,
@@ -365,5 +373,6 @@ def fragment_checks(record: dict[str, Any], formulas: list[str], *, neutral_mass
         d = check.as_dict()
         d["precursor_mz"] = round(spectrum.precursor_mz, 5)
         d["scans"] = len(spectrum.scan_ids)
+        d["co_isolated_mz"] = co_isolated
         out.append(d)
     return out

@@ -330,11 +330,14 @@ def _fragment_checks(spec: WellSpec, lcms: dict[str, Any], records: list[dict[st
         if r is None or r["status"] == "no fragments":
             continue
         contradicted = r["status"] == "contradicted"
+        chimeric = contradicted and bool(r.get("co_isolated_mz"))
         explanation = "; ".join(r["reasons"]) if contradicted else (
             f"every clear fragment of m/z {r['precursor_mz']:.4f} ({r['species']}) is a sub-formula of {r['precursor_formula']}")
-        c.setdefault("checks", []).append({"name": "fragments", "status": "fail" if contradicted else "pass",
+        if chimeric:
+            explanation += f" (but m/z {', '.join(f'{m:.4f}' for m in r['co_isolated_mz'])} co-elutes within the isolation window: the fragment may be its)"
+        c.setdefault("checks", []).append({"name": "fragments", "status": "warn" if chimeric else "fail" if contradicted else "pass",
                                            "observed": len(r["assignments"]), "expected": r["precursor_formula"], "explanation": explanation})
-        if contradicted:
+        if contradicted and not chimeric:
             c["verdict"] = "inconsistent"
             c.setdefault("reasons", []).extend(r["reasons"])
 

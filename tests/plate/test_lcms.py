@@ -135,3 +135,19 @@ def test_plate_run_needs_both_run_and_timetable(plate, tmp_path):
     manifest, run, _ = plate
     done = CliRunner().invoke(main, ["plate", "run", str(manifest), "--out", str(tmp_path / "o"), "--lcms", str(run)])
     assert done.exit_code == 2 and "--timetable" in done.output
+
+
+def test_a_co_isolated_ion_turns_a_contradiction_into_a_doubt():
+    """Fragments of an ion co-eluting within the isolation window are no evidence against the candidate (common practice)."""
+    from nmrcheck.plate.lcms import fragment_checks
+
+    frag = molmass.Formula("[C7H8NO]+").monoisotopic_mass
+    spectrum = {"precursor_mz": 167.1067, "species": "[M+H]+", "rt_min": 2.0, "scan_ids": ["s1"], "collision_energy_ev": 20.0,
+                "mz": [frag], "intensity": [100.0]}
+    target = {"neutral_mass": 166.0994, "share": 0.6, "rt_start_min": 1.9, "rt_end_min": 2.1,
+              "ions": [{"species": "[M+H]+", "mz": 167.1067}], "ms2": [spectrum]}
+    other = {"neutral_mass": 166.5, "share": 0.3, "rt_start_min": 1.95, "rt_end_min": 2.2, "ions": [{"species": "[M+H]+", "mz": 167.6}], "ms2": []}
+    alone = fragment_checks({"features": [target]}, ["C10H14O2"], neutral_mass=166.0994)[0]
+    assert alone["status"] == "contradicted" and alone["co_isolated_mz"] == []
+    mixed = fragment_checks({"features": [target, other]}, ["C10H14O2"], neutral_mass=166.0994)[0]
+    assert mixed["co_isolated_mz"] == [167.6]
