@@ -21,7 +21,7 @@ differ between compounds by orders of magnitude.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from functools import lru_cache
 from typing import Any
 
@@ -394,7 +394,7 @@ class _Envelope:
     """Peaks of M+0, M+1, ... (several when the fine structure is resolved)."""
 
 
-def _envelopes(peaks: list[_Peak], options: FeatureOptions, polarity_sign: int) -> list[_Envelope]:
+def _envelopes(peaks: list[_Peak], options: FeatureOptions) -> list[_Envelope]:
     order = sorted(peaks, key=lambda p: p.mz)
     mzs = np.array([p.mz for p in order])
     out = []
@@ -448,8 +448,12 @@ class _Ion:
     rt: float
 
 
-def _group_species(ions: list[_Ion], species: tuple[IonSpecies, ...], options: FeatureOptions):
-    """Assign ion species: greedily take the neutral mass that explains the most co-eluting ions."""
+def _group_species(ions: list[_Ion], species: tuple[IonSpecies, ...], options: FeatureOptions) -> list[tuple[dict[int, tuple[IonSpecies, float]], bool]]:
+    """Assign ion species: greedily take the neutral mass that explains the most co-eluting ions.
+
+    Returns (members, assumed) pairs: members maps an ion's index to its species and the neutral
+    mass it gives; assumed is True for a lone ion given the commonest species of its charge.
+    """
     prefs = {s.notation: k for k, s in enumerate(species)}
     masses: list[list[tuple[float, IonSpecies]]] = []
     for ion in ions:
@@ -494,7 +498,7 @@ def _group_species(ions: list[_Ion], species: tuple[IonSpecies, ...], options: F
         if best is None:
             break
         members = best[1]
-        groups.append(members)
+        groups.append((members, False))
         free -= set(members)
     for i in sorted(free):
         lone = [s for s in species if abs(s.charge) == ions[i].charge and s.molecules == 1 and not s.loss]
@@ -502,7 +506,7 @@ def _group_species(ions: list[_Ion], species: tuple[IonSpecies, ...], options: F
             continue
         s = lone[0]
         try:
-            groups.append({i: (s, neutral_mass(ions[i].mz, s)), "assumed": True})
+            groups.append(({i: (s, neutral_mass(ions[i].mz, s))}, True))
         except ParameterError:
             continue
     return groups
@@ -540,8 +544,7 @@ def _features_one_polarity(scans: list[Scan], in_window: np.ndarray, ms2_scans: 
     # Traces below a thousandth of the listing threshold can be neither a feature nor a partner ion's isotope.
     for xic, mean_mz in _mass_traces(scans, options.trace_tolerance_ppm, options.min_scans, in_window, 1e-3 * options.min_share * tic):
         peaks.extend(_pick_peaks(xic, mean_mz, rts, options.min_scans))
-    sign = 1 if polarity == "positive" else -1
-    envs = _envelopes(peaks, options, sign)
+    envs = _envelopes(peaks, options)
     ions = []
     for env in envs:
         lo, hi = env.mono.lo, env.mono.hi
@@ -558,9 +561,8 @@ def _features_one_polarity(scans: list[Scan], in_window: np.ndarray, ms2_scans: 
     species = grouping_species(polarity, options.species)
     groups = _group_species(ions, species, options)
     features = []
-    for g in groups:
-        assumed = bool(g.pop("assumed", False))
-        members = sorted(g.items(), key=lambda kv: -ions[kv[0]].area_window)
+    for group, assumed in groups:
+        members = sorted(group.items(), key=lambda kv: -ions[kv[0]].area_window)
         weights = np.array([ions[k].area_window for k, _ in members])
         mass = float(np.average([m for _, (s, m) in members], weights=weights))
         share = float(weights.sum() / tic)

@@ -19,7 +19,7 @@ from pathlib import Path
 from typing import Any
 
 from nmrcheck.errors import ParameterError
-from nmrcheck.ms.features import FeatureOptions, LcmsFeature, Ms2Spectrum, WellMs, plate_features
+from nmrcheck.ms.features import FeatureOptions, Ms2Spectrum, WellMs, plate_features
 from nmrcheck.ms.msms import SpectralGroup, check_fragments, spectral_groups
 
 __all__ = ["PlateLcms", "analyse_run", "attach_run", "features_text", "merge_lcms", "manifest_rows", "write_manifest", "save_lcms", "load_lcms", "fragment_checks", "RECORD_KEY"]
