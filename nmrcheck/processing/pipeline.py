@@ -19,7 +19,7 @@ from nmrcheck.processing.regions import find_regions
 from nmrcheck.processing.results import PhaseCorrection, Processed
 from nmrcheck.processing.solvents import AQUEOUS, normalise_solvent
 from nmrcheck.processing.spectrum import ProcessingStep, Spectrum
-from nmrcheck.processing.suppression import suppression_zone
+from nmrcheck.processing.suppression import suppression_foot, suppression_zone
 from nmrcheck.processing.transform import fourier_transform, spectrum_from_file
 
 __all__ = ["ProcessingOptions", "process", "snr_of", "MAX_SIZE"]
@@ -99,8 +99,9 @@ class ProcessingOptions:
         return asdict(self)
 
 
-def _suppression_ranges(spectrum: Spectrum, options: ProcessingOptions) -> list[tuple[float, float]]:
-    """Ranges spoiled by solvent suppression: around the carrier when the pulse program presaturates.
+def _suppression_ranges(spectrum: Spectrum, options: ProcessingOptions) -> list[tuple[float, float, float]]:
+    """(low ppm, high ppm, centre ppm) of each zone spoiled by solvent suppression: around the carrier
+    when the pulse program presaturates.
 
     The zone's width is measured on the spectrum (:func:`suppression_zone`), so that
     lines beside a well-suppressed line are counted; ``suppression_halfwidth_ppm``
@@ -118,7 +119,38 @@ def _suppression_ranges(spectrum: Spectrum, options: ProcessingOptions) -> list[
     else:
         centre = 4.79
     cap = options.suppression_halfwidth_ppm
-    return [suppression_zone(spectrum, centre, min_half_ppm=min(0.04, cap), max_half_ppm=cap)]
+    lo, hi = suppression_zone(spectrum, centre, min_half_ppm=min(0.04, cap), max_half_ppm=cap)
+    return [(lo, hi, centre)]
+
+
+#: Half-width of the part of a suppression zone that is left out of integration, ppm:
+#: presaturation bleaches some tens of hertz about the solvent line (common practice).
+SUPPRESSION_CORE_PPM = 0.1
+
+
+def _on_the_foot(spectrum: Spectrum, regions, feet: list[tuple[float, float]]):
+    """Regions on the foot of a suppressed line, integrated above a straight line through their ends.
+
+    The foot varies slowly over a region's width, so a local straight baseline takes it out
+    while the lines standing on it keep their area (a region that holds nothing above that
+    line is left with about zero and falls under the noise test).
+    """
+    if not feet:
+        return regions
+    y = spectrum.data.real
+    out = []
+    for r in regions:
+        on_foot = any(min(f) <= r.peak_ppm <= max(f) for f in feet) if r.peak_ppm is not None else False
+        if r.counted and on_foot:
+            sl = spectrum.slice_of(r.start_ppm, r.end_ppm)
+            seg = y[sl]
+            if seg.size >= 8:
+                edge = max(2, seg.size // 16)
+                base = np.linspace(seg[:edge].mean(), seg[-edge:].mean(), seg.size)
+                r = replace(r, integral=float(np.sum(seg - base) * spectrum.step_ppm),
+                            label="on the foot of the suppressed line: local straight baseline")
+        out.append(r)
+    return tuple(out)
 
 
 def phasing_exclusion(spectrum: Spectrum, options: ProcessingOptions | None = None) -> list[tuple[float, float]]:
@@ -127,7 +159,7 @@ def phasing_exclusion(spectrum: Spectrum, options: ProcessingOptions | None = No
     (A wider guard band was tried and lost: lines just outside the measured zone, such as a
     sugar's anomeric doublet, are what pins the first-order phase at the high-ppm end.)
     """
-    return _suppression_ranges(spectrum, options or ProcessingOptions())
+    return [(lo, hi) for lo, hi, _ in _suppression_ranges(spectrum, options or ProcessingOptions())]
 
 
 def snr_of(spectrum: Spectrum, regions, noise: float) -> float:
@@ -177,7 +209,7 @@ def process(source: Fid | SpectrumFile | str | os.PathLike, options: ProcessingO
     elif already_phased:
         phase = PhaseCorrection(0.0, 0.0, spec.first_ppm, "as processed by the instrument software")
     else:
-        spec, phase = auto_phase(spec, exclude_ppm=phasing_exclusion(spec, opts))
+        spec, phase = auto_phase(spec, exclude_ppm=[(lo, hi) for lo, hi, _ in exclude])
         if phase.peaks_used == 0:
             warnings.append("no peak above noise to phase on; spectrum left unphased")
     spec = correct_baseline(spec, method=opts.baseline, smoothness_hz=opts.baseline_smoothness_hz)
@@ -187,8 +219,14 @@ def process(source: Fid | SpectrumFile | str | os.PathLike, options: ProcessingO
     else:
         # Suppression ranges move with the axis.
         shift = ref.ppm - (ref.found_ppm if ref.found_ppm is not None else ref.ppm)
-        exclude = [(a + shift, b + shift) for a, b in exclude]
+        exclude = [(a + shift, b + shift, c + shift) for a, b, c in exclude]
     noise = noise_level(spec.data.real)
+    # The suppressed line's foot that phasing and the baseline left behind is not analyte: lines
+    # standing on it are integrated above a local straight baseline.
+    # Only the saturation hole and the residual line's body are left out (presaturation
+    # bleaches some tens of hertz; SUPPRESSION_CORE_PPM either side of the line's centre at most).
+    feet = [suppression_foot(spec, (lo, hi), noise=noise, max_half_ppm=opts.suppression_halfwidth_ppm) for lo, hi, _ in exclude]
+    exclude = [(max(lo, c - SUPPRESSION_CORE_PPM), min(hi, c + SUPPRESSION_CORE_PPM)) for lo, hi, c in exclude]
     ref_name = ref.name if ref.kind in ("TMS", "DSS") else None
     regions = find_regions(
         spec,
@@ -201,6 +239,7 @@ def process(source: Fid | SpectrumFile | str | os.PathLike, options: ProcessingO
         exclude_ppm=exclude,
         reference_line=ref.line,
     )
+    regions = _on_the_foot(spec, regions, feet)
     count = None
     sigmas = []
     for r in regions:

@@ -8,7 +8,7 @@ from scipy.ndimage import median_filter
 from nmrcheck.errors import ParameterError
 from nmrcheck.processing.spectrum import Spectrum
 
-__all__ = ["suppression_zone"]
+__all__ = ["suppression_zone", "suppression_foot"]
 
 
 def suppression_zone(
@@ -59,3 +59,42 @@ def suppression_zone(
         sides.append(float(np.clip(abs(k - c) * step, min_half_ppm, max_half_ppm)))
     high_side, low_side = sides
     return centre_ppm - low_side, centre_ppm + high_side
+
+
+def suppression_foot(
+    spectrum: Spectrum,
+    zone: tuple[float, float],
+    *,
+    noise: float,
+    floor_sigma: float = 3.0,
+    median_window_ppm: float = 0.04,
+    max_half_ppm: float = 0.6,
+) -> tuple[float, float]:
+    """``zone`` widened over the foot of the suppressed line left in a phased, baseline-corrected spectrum.
+
+    After phasing and baseline correction a well-behaved spectrum is flat between its
+    lines; the remains of a presaturated line are not, and their foot (often
+    dispersive, seldom followed by the baseline) would be integrated as analyte. The
+    running median (narrow lines vanish in it) of the real part is followed outward
+    from each end of ``zone`` while it stays beyond ``floor_sigma`` noise standard
+    deviations, up to ``max_half_ppm`` from the zone's centre.
+    """
+    y = spectrum.data.real
+    step = spectrum.step_ppm
+    lo_ppm, hi_ppm = min(zone), max(zone)
+    centre_ppm = 0.5 * (lo_ppm + hi_ppm)
+    window = max(3, int(round(median_window_ppm / step)) | 1)
+    reach = int(round((max_half_ppm + median_window_ppm) / step))
+    c = spectrum.index_of(centre_ppm)
+    a, b = max(0, c - reach), min(y.size, c + reach + 1)
+    med = np.abs(median_filter(y[a:b], size=window, mode="nearest"))
+    floor = floor_sigma * noise
+    out = []
+    for edge_ppm, direction in ((hi_ppm, -1), (lo_ppm, 1)):  # higher ppm lies at lower index
+        k = spectrum.index_of(edge_ppm) - a
+        limit = int(round(max_half_ppm / step))
+        while 0 <= k + direction < med.size and abs(k + a - c) < limit and med[k] > floor:
+            k += direction
+        out.append(spectrum.first_ppm - (k + a) * step)
+    new_hi, new_lo = out
+    return min(lo_ppm, new_lo), max(hi_ppm, new_hi)
