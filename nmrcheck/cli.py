@@ -470,6 +470,10 @@ def demo(out_dir, workers) -> None:
 
     summary, report, seconds = run_demo(out_dir, workers=workers, progress=progress_for(sys.stderr))
     click.echo(f"demo plate screened in {seconds:.1f} s: {summary.describe()}")
+    from nmrcheck.plate.lcms import lcms_summary
+
+    for line in lcms_summary(report.parent):
+        click.echo(line)
     click.echo(f"report: {report}")
 
 

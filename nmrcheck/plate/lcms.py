@@ -22,7 +22,7 @@ from nmrcheck.errors import ParameterError
 from nmrcheck.ms.features import FeatureOptions, Ms2Spectrum, WellMs, plate_features
 from nmrcheck.ms.msms import SpectralGroup, check_fragments, spectral_groups
 
-__all__ = ["PlateLcms", "analyse_run", "attach_run", "features_text", "merge_lcms", "manifest_rows", "write_manifest", "save_lcms", "load_lcms", "fragment_checks", "RECORD_KEY"]
+__all__ = ["PlateLcms", "analyse_run", "attach_run", "features_text", "lcms_summary", "merge_lcms", "manifest_rows", "write_manifest", "save_lcms", "load_lcms", "fragment_checks", "RECORD_KEY"]
 
 RECORD_KEY = "lcms"
 """Key of the plate-level LC-MS record in the results store (:meth:`ResultsStore.plate_record`)."""
@@ -319,6 +319,19 @@ def load_lcms(out_dir: str | os.PathLike) -> dict[str, Any] | None:
 
     with ResultsStore(out_dir) as store:
         return store.plate_record(RECORD_KEY)
+
+
+def lcms_summary(out_dir: str | os.PathLike) -> list[str]:
+    """Lines on what the LC-MS run said about a screened plate (none when it had no run)."""
+    record = load_lcms(out_dir)
+    if record is None:
+        return []
+    wells = record["wells"]
+    mixed = [w for w, m in wells.items() if m["major_features"] > 1]
+    lines = [f"LC-MS: features of {sum(1 for m in wells.values() if m['features'])} of {len(wells)} wells from {record['run']}"
+             + (f"; several major features (a mixture?) in {', '.join(mixed)}" if mixed else "")]
+    lines.extend(f"MS/MS: {g['summary']}" for g in record["groups"])
+    return lines
 
 
 # --- inside a well's screen ------------------------------------------------------------------

@@ -125,6 +125,12 @@ def test_plate_run_with_the_run_records_features_fragment_checks_and_groups(plat
     assert [c for c in checks["C8H10N4O2"]["checks"] if c["name"] == "fragments"][0]["status"] == "pass"
     record = load_lcms(out)
     assert record["groups"] and record["collector_delay_min"] == DEMO_DELAY_MIN
+    from nmrcheck.plate.lcms import lcms_summary
+
+    lines = lcms_summary(out)
+    assert lines[0].startswith("LC-MS: features of 9 of 9 wells")  # A1..A9 each hold a compound (nmrcheck.demo)
+    assert any(ln.startswith("MS/MS: wells") for ln in lines)
+    assert lcms_summary(tmp_path / "no-run") == []
     # The same command again resumes: the run gives the same LC-MS records, so nothing is redone.
     again = CliRunner().invoke(main, ["plate", "run", str(edited), "--out", str(out), "--workers", "1", "--no-report",
                                       "--lcms", str(run), "--timetable", str(table), "--collector-delay-min", str(DEMO_DELAY_MIN)])
