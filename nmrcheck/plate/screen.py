@@ -424,6 +424,24 @@ def _quantify(processed, spec: WellSpec, options: ScreenOptions, basis: Any, not
     return out, rec.as_dict()
 
 
+def _claimed_h_counts(spec: WellSpec, solvent: str | None) -> tuple[int, ...] | None:
+    """Visible H totals the manifest's formulas and structures allow in ``solvent`` (for the processing's count)."""
+    try:
+        from nmrcheck.predict import SOLVENTS, expected_visible_h
+        from nmrcheck.validate import candidates_from_strings
+    except ImportError:
+        return None
+    cands, _ = candidates_from_strings(spec.formulas, [f"{smi} {name}" for name, smi in spec.structures])
+    totals: set[int] = set()
+    for c in cands:
+        try:
+            lo, hi, _, _ = expected_visible_h(c.mol if c.mol is not None else dict(c.formula.counts), solvent if solvent in SOLVENTS else None)
+        except NmrcheckError:
+            continue
+        totals.update(range(max(1, lo), hi + 1))
+    return tuple(sorted(totals)) or None
+
+
 def screen_well(spec: WellSpec, directory: str, options: ScreenOptions) -> WellResult:
     """Screen one well; every failure is returned as the result's status and error, never raised.
 
@@ -477,7 +495,16 @@ def screen_well(spec: WellSpec, directory: str, options: ScreenOptions) -> WellR
             popts = dataclasses.replace(popts, solvent=spec.solvent)
         elif spec.solvent and file_solvent != spec.solvent:
             notes.append(f"manifest solvent {spec.solvent} differs from the recording's {file_solvent}; the recording's is used")
-        processed = process(record, popts)
+        counts = _claimed_h_counts(spec, file_solvent or spec.solvent)
+        if counts:
+            try:
+                processed = process(record, dataclasses.replace(popts, candidate_h_counts=counts))
+            except ParameterError as exc:
+                # the claims allow no total the integrals fit: count freely, the checks will say why
+                notes.append(f"proton count not bounded by the claimed formulas: {exc}")
+                processed = process(record, popts)
+        else:
+            processed = process(record, popts)
         clock.lap("process")
         real = processed.spectrum.data.real
         trace = SpectrumTrace.from_spectrum(processed.spectrum.ppm, real, bins=options.trace_bins)

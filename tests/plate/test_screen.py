@@ -138,3 +138,12 @@ def test_amount_settings_per_well_from_the_manifest(tmp_path):
     assert r.amount["nmol"] == pytest.approx(NMOL, rel=0.03)  # 12 H against DSS-d6's 9 H at 40 nmol
     assert r.amount["conc_mM"] == pytest.approx(NMOL / 50.0, rel=0.03)
     assert r.recommendation["experiment"].lower() == "1h-13c hmbc"
+
+
+def test_count_bounded_by_the_claimed_formula(results):
+    """The manifest's C5H12O allows 11-12 visible H (one OH may exchange): the processing's unit is chosen among
+    them, so the count reads MTBE's 12 H, not a fraction of it."""
+    r = results["A1"]
+    assert r.count["method"] == "bounded by candidate formulas"
+    assert round(r.count["total_h"]) == 12
+    assert results["A2"].count["method"] != "bounded by candidate formulas"
