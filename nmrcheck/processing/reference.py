@@ -79,6 +79,28 @@ def is_carbon_satellite(spectrum: Spectrum, i: int, *, ratio: float = 30.0) -> b
     return False
 
 
+def has_carbon_satellites(spectrum: Spectrum, i: int) -> bool:
+    """True when line ``i`` shows its 13C satellite pair: two lines symmetric about it at half a
+    one-bond coupling (50-115 Hz), each 0.2-1.2 % of it and clear of the noise (common practice)."""
+    y = spectrum.data.real
+    hz = spectrum.hz_per_point
+    floor = 3.0 * noise_level(y)
+    core = max(1, int(round(1.5 / hz)))
+    for d_hz in np.arange(SATELLITE_HALF_J_HZ[0], SATELLITE_HALF_J_HZ[1] + 1e-9, 0.5):
+        d = int(round(d_hz / hz))
+        lo, hi = i - d - core, i + d + core + 1
+        if lo < 0 or hi > y.size:
+            continue
+        left = float(y[i - d - core : i - d + core + 1].max())
+        right = float(y[i + d - core : i + d + core + 1].max())
+        if min(left, right) <= floor:
+            continue
+        a, b = left / y[i], right / y[i]
+        if 0.002 <= a <= 0.012 and 0.002 <= b <= 0.012 and 0.5 <= a / b <= 2.0:
+            return True
+    return False
+
+
 def quintet_ratios(spectrum: Spectrum, i: int) -> tuple[float, float, float]:
     """(H-D coupling Hz, mean height at +-J over the centre, at +-2J over the centre), best J.
 
@@ -130,6 +152,8 @@ def find_peak(
     max_width_hz: float | None = None,
     isolated_hz: float | None = None,
     pattern: str = "s",
+    unique: bool = False,
+    satellites: bool = False,
 ) -> float | None:
     """Shift of the reference line near ``centre_ppm``, or None.
 
@@ -143,7 +167,8 @@ def find_peak(
     at the coupling constant). Candidates that look like a 13C satellite of a much
     taller line are never taken (:func:`is_carbon_satellite`), and with
     ``pattern='quint'`` a candidate must show the 1:2:3:2:1 lines of a CHD2 group
-    (:func:`quintet_ratios`).
+    (:func:`quintet_ratios`). With ``unique``, a window holding more than one
+    candidate gives None (the choice between them would be a guess).
     """
     y = spectrum.data.real
     floor = min_snr * noise_level(y)
@@ -160,11 +185,15 @@ def find_peak(
         idx = [i for i in idx if not is_carbon_satellite(spectrum, i)]
         if pattern == "quint":
             idx = [i for i in idx if looks_like_quintet(spectrum, i)]
+        elif satellites:
+            idx = [i for i in idx if has_carbon_satellites(spectrum, i)]
         if not idx:
             continue
         tallest = max(y[i] for i in idx)
         # Lines under a tenth of the tallest candidate are noise spikes or satellites.
         idx = [i for i in idx if y[i] >= 0.1 * tallest]
+        if unique and len(idx) > 1:
+            return None
         best = min(idx, key=lambda i: (abs(_vertex(spectrum, i) - centre_ppm), -y[i]))
         return _vertex(spectrum, best)
     return None
@@ -212,16 +241,23 @@ def reference_axis(
             # Nearest first: an isolated singlet very close to the table value, then any sharp
             # line that close (the residual inside an analyte multiplet is not isolated), then
             # isolated singlets further out (the spectrometer's own axis may be a few tenths off).
-            for window, isolated in ((CLOSE_PPM, True), (CLOSE_PPM, False), (search_ppm, True)):
+            # (window, isolated, smallest SNR, only candidate in the window)
+            passes = ((CLOSE_PPM, True, 5.0, False), (CLOSE_PPM, False, 20.0, False),
+                      (CLOSE_PPM, False, 5.0, True), (search_ppm, True, 5.0, False))
+            for window, isolated, snr, unique in passes:
                 if not singlet and not isolated:
                     continue
                 # The centre line of a CHD2 quintet merges with its neighbours at half height.
                 width = sharp if singlet else sharp + MULTIPLET_EXTRA_WIDTH_HZ
-                # A line that is not isolated is taken only when it stands well clear of the
-                # noise: at low SNR an analyte line beside it is as likely.
-                at = find_peak(spectrum, sig.ppm, window_ppm=window, min_snr=5.0 if isolated else 20.0, max_width_hz=width,
+                # A line that is not isolated is taken when it stands well clear of the noise, or
+                # when it is the only line that close: at low SNR an analyte line beside it is as
+                # likely, and a weak residual (highly deuterated solvent) may be all there is.
+                at = find_peak(spectrum, sig.ppm, window_ppm=window, min_snr=snr, max_width_hz=width,
                                isolated_hz=SINGLET_ISOLATION_HZ if (singlet and isolated) else None,
-                               pattern=sig.multiplicity)
+                               pattern=sig.multiplicity, unique=unique,
+                               # Tenths of a ppm from its table value a singlet is the residual only
+                               # when its 13C satellites say it is a C-H line of that size.
+                               satellites=window > CLOSE_PPM)
                 if at is not None:
                     if singlet and not isolated:
                         label += " (beside analyte lines)"
@@ -238,9 +274,11 @@ def reference_axis(
         # overrule DSS.
         # In an organic solvent the residual line is always there while a line near 0 ppm
         # may be grease or an analyte methyl: when the two disagree by more than the
-        # tolerance of a reference (0.02 ppm), the residual sets the axis.
+        # tolerance of a reference (0.02 ppm), the residual sets the axis if it was found
+        # close to its table value (where the spectrometer's own axis put it); one found
+        # tenths of a ppm away is less certain than the standard.
         s_std, s_res = standard[2] - standard[3], residual[2] - residual[3]
-        if name not in AQUEOUS and abs(s_std - s_res) > 0.02:
+        if name not in AQUEOUS and abs(s_std - s_res) > 0.02 and abs(s_res) <= CLOSE_PPM + 0.005:
             found = residual
     if found is None:
         return spectrum, Reference("none", f"none (no reference signal found for {name})", spectrum.first_ppm, None, "")

@@ -19,7 +19,9 @@ LINES = [
     Line(2.60, 2.0, 1.0, (7.2, 7.2)),
     Line(1.20, 6.0, 1.0, (6.8,)),
 ]
-SOLVENT = [Line(7.26, 0.05, 0.8)]
+# CHCl3 with its 13C satellites: 1J(C,H) of chloroform is about 209 Hz, so +-104.5 Hz at 600 MHz,
+# 0.55 % of the line each (natural 13C abundance 1.1 %; from memory).
+SOLVENT = [Line(7.26, 0.05, 0.8), Line(7.26 + 104.5 / 600.0, 0.05 * 0.0055, 0.8), Line(7.26 - 104.5 / 600.0, 0.05 * 0.0055, 0.8)]
 
 
 def _fid(p0=0.0, p1=0.0, noise=0.0005, gd=0.0, shift=0.0):
@@ -50,6 +52,19 @@ def test_solvent_reference_moves_axis():
     assert result.reference.found_ppm == pytest.approx(7.31, abs=0.003)
     tallest = max((r for r in result.regions if r.counted), key=lambda r: r.integral)
     assert tallest.peak_ppm == pytest.approx(1.20, abs=0.02)
+
+
+def test_a_singlet_far_from_the_table_value_without_satellites_is_not_taken():
+    """0.05 ppm from 7.26 ppm a singlet is the CHCl3 residual only with its 13C satellites; without them
+    the spectrometer's axis is kept and the result says so (never a confident wrong axis)."""
+    def fid_without_satellites():
+        lines = [Line(l.ppm + 0.05, l.h, l.width_hz, l.j_hz) for l in LINES + SOLVENT[:1]]
+        return simulate_fid(lines, spectrometer_mhz=600.0, sweep_width_hz=7200.0, points=32768, carrier_ppm=4.7,
+                            noise=0.0005, seed=3)
+
+    result = process(fid_without_satellites(), lb_hz=0.3, solvent="CDCl3")
+    assert result.reference.kind == "none"
+    assert any("not referenced" in w for w in result.warnings)
 
 
 def test_anchored_count():
