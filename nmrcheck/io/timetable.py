@@ -23,6 +23,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from nmrcheck.errors import InputFileError, ParameterError
+from nmrcheck.io.csvrows import data_rows
 
 __all__ = ["FractionWindow", "Timetable", "read_timetable", "write_timetable", "TIMETABLE_COLUMNS"]
 
@@ -102,10 +103,7 @@ def read_timetable(path: str | os.PathLike) -> Timetable:
         where = f"line {line}, field '{field}'" if field else f"line {line}"
         return InputFileError(p, f"{where}: {message}")
 
-    for fields in reader:
-        line = reader.line_num
-        if not fields or all(not f.strip() for f in fields) or fields[0].lstrip().startswith("#"):
-            continue
+    for line, fields in data_rows(reader):
         if header is None:
             header = [f.strip().lower() for f in fields]
             for col in _REQUIRED:

@@ -15,6 +15,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from nmrcheck.errors import ManifestError, NmrcheckError
+from nmrcheck.io.csvrows import data_rows
 
 __all__ = [
     "COLUMNS",
@@ -429,10 +430,7 @@ def read_manifest(path: str | os.PathLike, *, layout: str | int | None = None) -
     header: list[str] | None = None
     problems: list[str] = []
     rows: list[tuple[int, dict[str, str]]] = []
-    for fields in reader:
-        line = reader.line_num
-        if not fields or all(not f.strip() for f in fields) or fields[0].lstrip().startswith("#"):
-            continue
+    for line, fields in data_rows(reader):
         if header is None:
             header = [f.strip().lower() for f in fields]
             for col in REQUIRED_COLUMNS:
