@@ -1,15 +1,19 @@
 """Known-compound library benchmark: indexing and look-up times at 10k, 100k and 500k entries.
 
-Run: ``python bench/bench_library.py [--sizes 10000 100000 500000] [--structures 10000]``. Prints
+Run: ``python bench/bench_library.py [--sizes 10000 100000 500000] [--structures 20000]``. Prints
 
 1. per library size (built in code: random CHNOS formulas with invented InChIKey blocks and
    taxa, as open natural-product exports ship formula and InChIKey columns): the time to
    index it into SQLite, and the mean time of a well's look-up ([M+H]+, 3 ppm, genus and
    family given) against the peer in the same run, a plain linear numpy scan of every
    mass in memory (which must find the same entries);
-2. the structure path: a library of SMILES only (built in code from random fragments), so
-   that RDKit parses every structure for its formula and InChIKey, with 1 and 2 worker
-   processes; its rate projects the time for 500,000 entries.
+2. the structure path: a library of SMILES only (built in code from random fragments to
+   natural-product size, about 33 heavy atoms on average, with stereocentres, heteroaromatic
+   rings, zwitterions and 1 % unreadable rows), so that RDKit works out every formula and
+   InChIKey, with 1 and 2 worker processes (``--workers``); its rate projects the time for 500,000 entries.
+   The peer, run on the first ``--peer-entries`` rows in the same run, is the plain loop
+   (fully sanitised ``MolFromSmiles``, formula parsed per row, standard ``MolToInchiKey``,
+   one process); every indexed row is compared with it (formula, charge, mass, key block).
 
 Nothing is asserted: timings are for reading, not for tests.
 """
@@ -31,7 +35,10 @@ from nmrcheck.ms.library import KnownCompoundLibrary, index_library
 
 GENERA = [f"Genus{k}" for k in range(400)]
 FAMILIES = [f"Family{k}" for k in range(60)]
-FRAGMENTS = ["C", "CC", "O", "N", "C(=O)", "c1ccccc1", "C(O)", "CN", "C=C", "S", "C(C)C", "OC"]
+FRAGMENTS = [
+    "C", "CC", "O", "N", "C(=O)", "c1ccc(O)cc1", "C(O)", "[C@@H](O)", "[C@H](C)", "C1CCC(CC1)", "c1ccncc1", "c1cc[nH]c1",
+    "C(=O)O", "OC", "C=C", "C/C=C/C", "C(C)(C)", "S", "C(Cl)", "C1OC(CO)C(O)C1O", "c1ccc2occc2c1", "C(=O)N", "OC(=O)",
+]
 
 
 def _formula_library(path: Path, n: int, rng) -> np.ndarray:
@@ -54,13 +61,47 @@ def _formula_library(path: Path, n: int, rng) -> np.ndarray:
     return masses
 
 
-def _smiles_library(path: Path, n: int, rng) -> None:
+def _smiles_library(path: Path, n: int, rng) -> list[str]:
+    smiles_all = []
     with open(path, "w", newline="") as fh:
         w = csv.writer(fh)
         w.writerow(["name", "smiles", "genus", "family"])
         for i in range(n):
-            smiles = "".join(rng.choice(FRAGMENTS, size=int(rng.integers(3, 14))))
+            smiles = "".join(rng.choice(FRAGMENTS, size=int(rng.integers(4, 16))))
+            if rng.random() < 0.05:
+                smiles = "[NH3+]" + smiles
+            if rng.random() < 0.05:
+                smiles += "C(=O)[O-]"
+            if rng.random() < 0.01:
+                smiles = smiles[: len(smiles) // 2] + "C1CC("
+            smiles_all.append(smiles)
             w.writerow([f"compound {i}", smiles, GENERA[i % len(GENERA)], FAMILIES[i % len(FAMILIES)]])
+    return smiles_all
+
+
+def _peer_structures(smiles_all: list[str]) -> tuple[dict[int, tuple], float]:
+    """The plain loop: {line: (formula, charge, mass, key block)} and its seconds."""
+    from rdkit import Chem, RDLogger
+    from rdkit.Chem.rdMolDescriptors import CalcMolFormula
+
+    from nmrcheck.ms.library import _CHARGE
+
+    RDLogger.DisableLog("rdApp.*")
+    t0 = time.perf_counter()
+    out = {}
+    for line, smiles in enumerate(smiles_all, start=2):
+        mol = Chem.MolFromSmiles(smiles)
+        if mol is None:
+            continue
+        text = CalcMolFormula(mol)
+        m = _CHARGE.match(text)
+        charge = 0
+        if m is not None and m.group(1):
+            text, sign, digits = m.groups()
+            charge = (int(digits) if digits else 1) * (1 if sign == "+" else -1)
+        f = parse_formula(text)
+        out[line] = (f.hill, charge, f.monoisotopic_mass, Chem.MolToInchiKey(mol)[:14])
+    return out, time.perf_counter() - t0
 
 
 def _peer_scan(masses: np.ndarray, low: float, high: float) -> np.ndarray:
@@ -96,29 +137,44 @@ def sizes(sizes: list[int], lookups: int) -> None:
             print(f"{n:>8} {info.seconds:>8.1f} {look:>11.3f} {statistics.fmean(found):>8.1f} | {peer:>12.3f} {peer / look:>12.1f}")
 
 
-def structures(n: int) -> None:
+def structures(n: int, peer_entries: int, worker_counts: list[int]) -> None:
+    import sqlite3
+
     print()
     print(f"structure path: {n} entries with SMILES only (RDKit formula and InChIKey for each)")
     rng = np.random.default_rng(12)
     with tempfile.TemporaryDirectory() as tmp:
         src = Path(tmp) / "smiles.csv"
-        _smiles_library(src, n, rng)
-        for workers in (1, 2):
+        smiles_all = _smiles_library(src, n, rng)
+        peer, peer_s = _peer_structures(smiles_all[:peer_entries])
+        peer_us = 1e6 * peer_s / min(n, peer_entries)
+        print(f"  peer (plain loop, 1 process) on {min(n, peer_entries)} entries: {peer_us:.0f} us per entry, "
+              f"500,000 entries in about {500_000 * peer_us / 1e6:.0f} s")
+        for workers in worker_counts:
             info = index_library(src, Path(tmp) / f"s{workers}.sqlite", workers=workers)
-            rate = info.entries / info.seconds
+            us = 1e6 * info.seconds / n
+            con = sqlite3.connect(info.database)
+            stored = {line: (f, c, m, k) for line, f, c, m, k in con.execute("SELECT line, formula, charge, mass, key14 FROM compounds")}
+            con.close()
+            differ = sum(1 for line, want in peer.items() if stored.get(line) is None or stored[line][:2] != want[:2]
+                         or abs(stored[line][2] - want[2]) > 1e-9 or stored[line][3] != want[3])
+            extra = sum(1 for line in stored if line <= len(smiles_all[:peer_entries]) + 1 and line not in peer)
             print(f"  workers {workers}: {info.seconds:.1f} s for {info.entries} entries ({info.skipped} unreadable): "
-                  f"{1e6 / rate:.0f} us per entry, 500,000 entries in about {500_000 / rate:.0f} s")
+                  f"{us:.0f} us per entry, 500,000 entries in about {500_000 * us / 1e6:.0f} s; "
+                  f"peer/index {peer_us / us:.2f}; rows differing from the peer {differ + extra} of {len(peer)}")
 
 
 def main(argv=None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--sizes", type=int, nargs="+", default=[10_000, 100_000, 500_000])
     parser.add_argument("--lookups", type=int, default=500)
-    parser.add_argument("--structures", type=int, default=10_000, help="entries of the SMILES-only library (0: skip)")
+    parser.add_argument("--structures", type=int, default=20_000, help="entries of the SMILES-only library (0: skip)")
+    parser.add_argument("--peer-entries", type=int, default=20_000, help="rows the structure path's peer loop runs on")
+    parser.add_argument("--workers", type=int, nargs="+", default=[1, 2], help="worker processes of the structure path's runs")
     args = parser.parse_args(argv)
     sizes(args.sizes, args.lookups)
     if args.structures:
-        structures(args.structures)
+        structures(args.structures, args.peer_entries, args.workers)
     return 0
 
 

@@ -358,7 +358,7 @@ def plate_run(manifest, out_dir, workers, well_timeout, well_memory, watch, time
 
         from nmrcheck.ms.library import open_library
 
-        index = open_library(library, cache_dir=Path(out_dir) / "library")
+        index = open_library(library, cache_dir=Path(out_dir) / "library", workers=workers)
         click.echo(f"known compounds: {index.entries} in {index.database}" + (f" ({index.skipped} rows left out)" if index.skipped else ""), err=True)
         options = replace(options, library=index.database, genus=genus, family=family)
     if retention_calibration:

@@ -18,7 +18,9 @@ and protonated ions.
 
 from __future__ import annotations
 
+import collections
 import hashlib
+import itertools
 import logging
 import math
 import os
@@ -52,7 +54,7 @@ log = logging.getLogger("nmrcheck")
 SCHEMA_VERSION = "1"
 TAXON_RANKS = ("genus", "family", "other")
 """Taxon match of a known compound, best first."""
-_CHUNK = 5000
+_CHUNK = 2000
 _CHARGE = re.compile(r"^(.*?)([+-])(\d*)$")  # 'C20H18NO4+', 'C10H26N2+2' (RDKit's way)
 
 
@@ -169,8 +171,12 @@ class KnownLookup:
 # ----------------------------------------------------------------------------- indexing
 
 
+@lru_cache(maxsize=1 << 17)
 def _formula_and_charge(text: str) -> tuple[str, int, float]:
-    """(Hill formula, charge, monoisotopic mass) of a formula text such as 'C20H18NO4+' or 'C6H12O6'."""
+    """(Hill formula, charge, monoisotopic mass) of a formula text such as 'C20H18NO4+' or 'C6H12O6'.
+
+    Cached: a natural-product library repeats its formulas (isomers) many times over.
+    """
     text = text.strip()
     charge = 0
     m = _CHARGE.match(text)
@@ -181,44 +187,79 @@ def _formula_and_charge(text: str) -> tuple[str, int, float]:
     return f.hill, charge, f.monoisotopic_mass
 
 
-def _chemistry(rows) -> list[tuple]:
-    """Database rows for library rows: a stored tuple, or (None, line, reason) for a row left out.
+_rdkit = None
+
+
+def _structure_tools():
+    """RDKit's SMILES parser, formula and InChIKey functions, imported once per process."""
+    global _rdkit
+    if _rdkit is None:
+        from rdkit import Chem, RDLogger
+        from rdkit.Chem import rdinchi
+        from rdkit.Chem.rdMolDescriptors import CalcMolFormula
+
+        RDLogger.DisableLog("rdApp.*")
+        flags = Chem.SanitizeFlags
+        # Only what the formula (implicit hydrogens: valences) and the InChI (Kekule bonds,
+        # radicals) depend on; aromaticity, conjugation, hybridisation and RDKit's own stereo
+        # perception are left out (InChI perceives its own). The index test and the bench
+        # check formulas and key blocks against RDKit's fully sanitised molecule.
+        ops = flags.SANITIZE_CLEANUP | flags.SANITIZE_PROPERTIES | flags.SANITIZE_KEKULIZE | flags.SANITIZE_FINDRADICALS
+        _rdkit = (Chem, rdinchi, CalcMolFormula, ops)
+    return _rdkit
+
+
+def structure_formula_and_key(smiles: str) -> tuple[str, str | None] | None:
+    """(RDKit formula text, first InChIKey block) of a SMILES; ``None`` when it cannot be read.
+
+    The InChI is made without its stereo layer (``-SNon``): the first key block hashes the
+    main layer only (formula, connections, hydrogens), which InChI canonicalises before and
+    independently of stereochemistry, so the block is the standard InChIKey's first block
+    and the stereo perception is not paid for.
+    """
+    Chem, rdinchi, formula_of, ops = _structure_tools()
+    mol = Chem.MolFromSmiles(smiles, sanitize=False)
+    if mol is None:
+        return None
+    try:
+        Chem.SanitizeMol(mol, ops)
+    except Chem.rdchem.MolSanitizeException:  # valence or Kekule structure impossible: unreadable, as RDKit's full parse says
+        return None
+    key = rdinchi.MolToInchiKey(mol, "-SNon")[:14]
+    return formula_of(mol), key or None
+
+
+def _chemistry(chunk: list[tuple[str, str, str]]) -> list[tuple]:
+    """(Hill formula, charge, mass, InChIKey block) per (smiles, formula, inchikey), or (None, reason).
 
     The fast path (formula and InChIKey given in the file) needs no structure parsing; the
-    others go through RDKit.
+    others go through RDKit. Runs in the worker processes: only text goes in and out.
     """
-    Chem = None
-    out = []
-    for row in rows:
-        if not row.smiles:
-            out.append((None, row.line, "no structure (SMILES) given or readable"))
+    out: list[tuple] = []
+    for smiles, formula, inchikey in chunk:
+        if not smiles:
+            out.append((None, "no structure (SMILES) given or readable"))
             continue
         try:
-            if row.formula and row.inchikey:
-                hill, charge, mass = _formula_and_charge(row.formula)
-                key = row.inchikey.strip().upper()[:14]
+            if formula and inchikey:
+                hill, charge, mass = _formula_and_charge(formula)
+                key = inchikey.strip().upper()[:14]
             else:
-                if Chem is None:
-                    from rdkit import Chem, RDLogger
-                    from rdkit.Chem.rdMolDescriptors import CalcMolFormula
-
-                    RDLogger.DisableLog("rdApp.*")
-                mol = Chem.MolFromSmiles(row.smiles)
-                if mol is None:
-                    out.append((None, row.line, f"SMILES {row.smiles[:40]!r} cannot be read"))
+                parsed = structure_formula_and_key(smiles)
+                if parsed is None:
+                    out.append((None, f"SMILES {smiles[:40]!r} cannot be read"))
                     continue
-                hill, charge, mass = _formula_and_charge(CalcMolFormula(mol))
-                if row.formula:
-                    given, given_charge, _ = _formula_and_charge(row.formula)
+                hill, charge, mass = _formula_and_charge(parsed[0])
+                if formula:
+                    given, given_charge, _ = _formula_and_charge(formula)
                     if (given, given_charge) != (hill, charge):
-                        out.append((None, row.line, f"formula {row.formula} disagrees with the structure ({hill})"))
+                        out.append((None, f"formula {formula} disagrees with the structure ({hill})"))
                         continue
-                key = row.inchikey.strip().upper()[:14] if row.inchikey else (Chem.MolToInchiKey(mol)[:14] or None)
+                key = inchikey.strip().upper()[:14] if inchikey else parsed[1]
         except FormulaError as exc:
-            out.append((None, row.line, str(exc)))
+            out.append((None, str(exc)))
             continue
-        name = row.name or f"entry at line {row.line}"
-        out.append((name, row.smiles, hill, charge, mass, key, row.species.lower(), row.genus.lower(), row.family.lower(), row.line))
+        out.append((hill, charge, mass, key))
     return out
 
 
@@ -238,7 +279,51 @@ def _signature(path: Path) -> str:
     return f"{path.resolve()}|{st.st_size}|{st.st_mtime_ns}"
 
 
-def index_library(source: str | os.PathLike, database: str | os.PathLike, *, workers: int = 1) -> LibraryInfo:
+def usable_cores() -> int:
+    """Cores this process may run on."""
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except AttributeError:  # not on Linux
+        return max(1, os.cpu_count() or 1)
+
+
+def _chemistry_of_chunks(chunks, workers: int):
+    """(rows, chemistry) per chunk, in file order; worker processes once there is more than one chunk.
+
+    At most two chunks per worker are in flight, so a large library is streamed, never held
+    in memory whole.
+    """
+    first = next(chunks, None)
+    if first is None:
+        return
+    second = next(chunks, None)
+    if workers == 1 or second is None:
+        for chunk in itertools.chain((first,), () if second is None else (second,), chunks):
+            yield chunk, _chemistry(_payload(chunk))
+        return
+    import concurrent.futures as cf
+
+    pool = cf.ProcessPoolExecutor(max_workers=workers)
+    try:
+        pending: collections.deque = collections.deque()
+        for chunk in itertools.chain((first, second), chunks):
+            pending.append((chunk, pool.submit(_chemistry, _payload(chunk))))
+            if len(pending) >= 2 * workers:
+                done, future = pending.popleft()
+                yield done, future.result()
+        while pending:
+            done, future = pending.popleft()
+            yield done, future.result()
+    finally:
+        pool.shutdown(wait=True, cancel_futures=True)
+
+
+def _payload(chunk) -> list[tuple[str, str, str]]:
+    """What a worker needs of each row: text only, cheap to send."""
+    return [(row.smiles, row.formula, row.inchikey) for row in chunk]
+
+
+def index_library(source: str | os.PathLike, database: str | os.PathLike, *, workers: int | None = None) -> LibraryInfo:
     """Index a known-compound library file into the SQLite ``database`` (replaced when it exists).
 
     Parameters
@@ -246,10 +331,13 @@ def index_library(source: str | os.PathLike, database: str | os.PathLike, *, wor
     source
         CSV, TSV, SMILES or SD file (see :mod:`nmrcheck.io.known_compounds`).
     database
-        SQLite file to write; written to a temporary file beside it first, then moved
-        into place, so a reader never sees half an index.
+        SQLite file to write; written to a temporary file beside it first (no journal, no
+        waiting for the disk: a failed build is simply thrown away), flushed to disk, then
+        moved into place, so a reader never sees half an index.
     workers
-        Processes parsing structures (rows without formula and InChIKey columns need RDKit).
+        Processes working out formulas and InChIKeys (rows without formula and InChIKey
+        columns need RDKit); default every usable core. A library of one chunk
+        (2,000 rows) is done in this process.
 
     Raises
     ------
@@ -258,7 +346,9 @@ def index_library(source: str | os.PathLike, database: str | os.PathLike, *, wor
     """
     from nmrcheck.io.known_compounds import read_known_compounds
 
-    if not isinstance(workers, int) or workers < 1:
+    if workers is None:
+        workers = usable_cores()
+    if not isinstance(workers, int) or isinstance(workers, bool) or workers < 1:
         raise ParameterError(f"workers: a whole number >= 1, got {workers!r}")
     started = time.perf_counter()
     src = Path(source)
@@ -269,13 +359,14 @@ def index_library(source: str | os.PathLike, database: str | os.PathLike, *, wor
     os.close(fd)
     entries = skipped = 0
     problems: list[str] = []
-    pool = None
+    stream = _chemistry_of_chunks(_chunks(rows, _CHUNK), workers)
+    con = sqlite3.connect(tmp)
     try:
-        con = sqlite3.connect(tmp)
         con.executescript(
             """
             PRAGMA journal_mode = OFF;
             PRAGMA synchronous = OFF;
+            PRAGMA locking_mode = EXCLUSIVE;
             CREATE TABLE meta (key TEXT PRIMARY KEY, value TEXT);
             CREATE TABLE compounds (
                 id INTEGER PRIMARY KEY, name TEXT NOT NULL, smiles TEXT NOT NULL, formula TEXT NOT NULL,
@@ -283,25 +374,24 @@ def index_library(source: str | os.PathLike, database: str | os.PathLike, *, wor
                 line INTEGER NOT NULL);
             """
         )
-        chunks = _chunks(rows, _CHUNK)
-        if workers > 1:
-            import concurrent.futures as cf
-
-            pool = cf.ProcessPoolExecutor(max_workers=workers)
-            results = pool.map(_chemistry, chunks)
-        else:
-            results = map(_chemistry, chunks)
-        for done in results:
-            good = [r for r in done if r[0] is not None]
-            for _, line, why in (r for r in done if r[0] is None):
-                skipped += 1
-                if len(problems) < 20:
-                    problems.append(f"{src.name}: line {line}: {why}")
-            con.executemany(
-                "INSERT INTO compounds (name, smiles, formula, charge, mass, key14, species, genus, family, line) "
-                "VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
-                good,
-            )
+        insert = (
+            "INSERT INTO compounds (name, smiles, formula, charge, mass, key14, species, genus, family, line) "
+            "VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?)"
+        )
+        for chunk, chemistry in stream:
+            good = []
+            for row, found in zip(chunk, chemistry):
+                if found[0] is None:
+                    skipped += 1
+                    if len(problems) < 20:
+                        problems.append(f"{src.name}: line {row.line}: {found[1]}")
+                    continue
+                hill, charge, mass, key = found
+                good.append((
+                    row.name or f"entry at line {row.line}", row.smiles, hill, charge, mass, key,
+                    row.species.lower(), row.genus.lower(), row.family.lower(), row.line,
+                ))
+            con.executemany(insert, good)
             entries += len(good)
         if not entries:
             raise InputFileError(src, "the library holds no usable entry" + (f" ({problems[0]})" if problems else ""))
@@ -312,14 +402,16 @@ def index_library(source: str | os.PathLike, database: str | os.PathLike, *, wor
         )
         con.commit()
         con.close()
+        with open(tmp, "rb+") as fh:  # synchronous=OFF left the pages to the OS: on disk before the rename
+            os.fsync(fh.fileno())
         os.replace(tmp, db)
     finally:
-        if pool is not None:
-            pool.shutdown()
+        stream.close()  # stops the worker processes of a build that failed half way
+        con.close()
         if os.path.exists(tmp):
             os.unlink(tmp)
     seconds = time.perf_counter() - started
-    log.info("library %s: %d entries indexed into %s in %.1f s (%d skipped)", src, entries, db, seconds, skipped)
+    log.info("library %s: %d entries indexed into %s in %.1f s (%d skipped, %d workers)", src, entries, db, seconds, skipped, workers)
     return LibraryInfo(str(db), str(src), entries, skipped, tuple(problems), seconds)
 
 
@@ -341,7 +433,7 @@ def default_cache_dir() -> Path:
     return user_cache_dir("libraries") or Path(tempfile.gettempdir()) / "nmrcheck-libraries"
 
 
-def open_library(path: str | os.PathLike, *, cache_dir: str | os.PathLike | None = None, workers: int = 1) -> LibraryInfo:
+def open_library(path: str | os.PathLike, *, cache_dir: str | os.PathLike | None = None, workers: int | None = None) -> LibraryInfo:
     """The index of a library, building it when needed.
 
     ``path`` is either an index (``.sqlite``/``.db``) or a library file; a library file is

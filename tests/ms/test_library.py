@@ -4,8 +4,10 @@ from __future__ import annotations
 
 import csv
 import re
+import sqlite3
 
 import molmass
+import numpy as np
 import pytest
 from rdkit import Chem
 from rdkit.Chem.Descriptors import ExactMolWt
@@ -13,7 +15,14 @@ from rdkit.Chem.rdMolDescriptors import CalcMolFormula
 
 from nmrcheck.chem import ion_mz
 from nmrcheck.errors import InputFileError, ParameterError
-from nmrcheck.ms.library import KnownCompoundLibrary, index_library, library_structures, open_library
+import nmrcheck.ms.library as library_module
+from nmrcheck.ms.library import (
+    KnownCompoundLibrary,
+    index_library,
+    library_structures,
+    open_library,
+    structure_formula_and_key,
+)
 
 # name, SMILES, genus, family: structures written from memory; formulas and masses are taken from
 # RDKit and molmass in the tests, not typed here.
@@ -180,3 +189,79 @@ def test_bad_lookup_is_refused(library):
         lib.lookup([(300.0, "[M+H]+")], ppm=0)
     with pytest.raises(ParameterError, match="permanently charged"):
         lib.lookup([(336.1230, "[M]+"), (359.11, "[M+Na]+")])
+
+
+# name, SMILES, formula, InChIKey: PubChem compound records (from memory); the formula is RDKit's
+# notation of the molecule as written (acetate and the glycine zwitterion as charged/ionic forms).
+PUBLISHED = [
+    ("caffeine", "Cn1cnc2c1c(=O)n(C)c(=O)n2C", "C8H10N4O2", "RYYVLZVUVIJVGH-UHFFFAOYSA-N"),
+    ("quercetin", "O=C1C(O)=C(Oc2cc(O)cc(O)c12)c1ccc(O)c(O)c1", "C15H10O7", "REFJWTPEDVJJIY-UHFFFAOYSA-N"),
+    ("morphine", "CN1CC[C@]23c4c5ccc(O)c4O[C@H]2[C@@H](O)C=C[C@H]3[C@H]1C5", "C17H19NO3", "BQJCRHHNABKAKU-KBQPJGBKSA-N"),
+    ("berberine", "COc1ccc2cc3[n+](cc2c1OC)CCc1cc2OCOc2cc1-3", "C20H18NO4+", "YBHILYKTIRIUTE-UHFFFAOYSA-N"),
+    ("D-glucose", "OC[C@H]1OC(O)[C@H](O)[C@@H](O)[C@@H]1O", "C6H12O6", "WQZGKKKJIJFFOK-GASJEMHNSA-N"),
+    ("(S)-nicotine", "CN1CCC[C@H]1c1cccnc1", "C10H14N2", "SNICXCGAKADSCV-JTQLQIEISA-N"),
+    ("(R)-limonene", "CC1=CC[C@@H](CC1)C(C)=C", "C10H16", "XMGQYMWWDOXHJM-JTQLQIEISA-N"),
+    ("aspirin", "CC(=O)Oc1ccccc1C(=O)O", "C9H8O4", "BSYNRYMUTXBXSQ-UHFFFAOYSA-N"),
+    ("glycine (zwitterion)", "[NH3+]CC(=O)[O-]", "C2H5NO2", "DHMQDGOQFOQNFH-UHFFFAOYSA-N"),
+    ("acetate", "CC(=O)[O-]", "C2H3O2-", "QTBSBXVTEAMEQO-UHFFFAOYSA-M"),
+]
+
+
+@pytest.mark.parametrize(("name", "smiles", "formula", "inchikey"), PUBLISHED, ids=[p[0] for p in PUBLISHED])
+def test_formula_and_key_block_match_published_records(name, smiles, formula, inchikey):
+    """The indexer's light parse and stereo-free InChI give the published formula and first key block."""
+    assert structure_formula_and_key(smiles) == (formula, inchikey[:14])
+
+
+def _random_structures(n, seed):
+    """Natural-product-like SMILES from fragments (stereocentres, heteroaromatics, zwitterions) plus broken ones."""
+    fragments = ["C", "O", "N", "C(=O)", "c1ccc(O)cc1", "[C@@H](O)", "[C@H](C)", "C1CCC(CC1)", "c1ccncc1",
+                 "c1cc[nH]c1", "C/C=C/C", "C(Cl)", "C1OC(CO)C(O)C1O", "c1ccc2occc2c1", "C(=O)N", "S(=O)(=O)", "P(=O)(O)O"]
+    rng = np.random.default_rng(seed)
+    out = ["".join(rng.choice(fragments, size=int(rng.integers(2, 10)))) for _ in range(n)]
+    out[::17] = ["[NH3+]" + s + "C(=O)[O-]" for s in out[::17]]
+    return out + ["C1CC(", "c1cccc1", "C(C)(C)(C)(C)C", "[NH4]", "[CH2]C", "[Na+].[O-]C(=O)C", "[2H]C([2H])([2H])O"]
+
+
+def test_light_parse_agrees_with_rdkits_full_sanitisation():
+    """Independent reference: RDKit's fully sanitised molecule, its formula and its standard InChIKey."""
+    for smiles in _random_structures(300, seed=5):
+        mol = Chem.MolFromSmiles(smiles)
+        want = None if mol is None else (CalcMolFormula(mol), Chem.MolToInchiKey(mol)[:14] or None)
+        assert structure_formula_and_key(smiles) == want, smiles
+
+
+def test_worker_processes_give_the_same_index_in_file_order(tmp_path, monkeypatch):
+    monkeypatch.setattr(library_module, "_CHUNK", 40)
+    structures = _random_structures(230, seed=8)
+    path = tmp_path / "known.csv"
+    with open(path, "w", newline="") as fh:
+        w = csv.writer(fh)
+        w.writerow(["name", "smiles", "genus"])
+        w.writerows([f"compound {i}", s, f"Genus{i % 7}"] for i, s in enumerate(structures + structures[:50]))
+    one = index_library(path, tmp_path / "one.sqlite", workers=1)
+    two = index_library(path, tmp_path / "two.sqlite", workers=2)
+    assert (two.entries, two.skipped, two.problems) == (one.entries, one.skipped, one.problems)
+    assert one.skipped == sum(Chem.MolFromSmiles(s) is None for s in structures + structures[:50])
+
+    def rows(info):
+        con = sqlite3.connect(info.database)
+        try:
+            return con.execute("SELECT id, name, smiles, formula, charge, mass, key14, genus, line FROM compounds ORDER BY id").fetchall()
+        finally:
+            con.close()
+
+    assert rows(two) == rows(one)
+    lines = [r[-1] for r in rows(one)]
+    assert lines == sorted(lines)
+
+
+def test_a_failed_build_leaves_the_previous_index_and_no_partial_file(tmp_path):
+    good = index_library(write_library(tmp_path / "known.csv", ENTRIES[:3]), tmp_path / "known.sqlite")
+    broken = tmp_path / "broken.csv"
+    broken.write_text("name,smiles\nx,C1CC(\n")
+    with pytest.raises(InputFileError, match="no usable entry"):
+        index_library(broken, tmp_path / "known.sqlite")
+    with KnownCompoundLibrary(good.database) as lib:
+        assert len(lib) == 3
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["broken.csv", "known.csv", "known.sqlite"]
