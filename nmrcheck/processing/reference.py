@@ -128,16 +128,37 @@ def quintet_ratios(spectrum: Spectrum, i: int) -> tuple[float, float, float]:
     return best
 
 
-def looks_like_quintet(spectrum: Spectrum, i: int) -> bool:
+def _quintet_sides(spectrum: Spectrum, i: int, j_hz: float) -> np.ndarray:
+    """Heights at -2J, -1.5J, -J, -J/2, +J/2, +J, +1.5J, +2J from line ``i``, over its own height."""
+    y = spectrum.data.real
+    d = j_hz / spectrum.hz_per_point
+    pts = i + d * np.array([-2.0, -1.5, -1.0, -0.5, 0.5, 1.0, 1.5, 2.0])
+    return np.interp(pts, np.arange(y.size, dtype=float), y) / y[i]
+
+
+def looks_like_quintet(spectrum: Spectrum, i: int, *, resolved_only: bool = False) -> bool:
     """True when line ``i`` is the centre of a 1:2:3:2:1 CHD2 quintet (or of a quintet too broad to resolve).
 
     A resolved quintet has its first pair of lines at about 2/3 of the centre and its
     second pair at about 1/3; a singlet at a coupling's distance has almost nothing.
     Unresolved quintets (broad lines) pass when both pairs stay high: the width test
-    of the caller then decides.
+    of the caller then decides. With ``resolved_only`` (a line tenths of a ppm from its
+    table value, where position says little) only a resolved quintet whose lines pair
+    up symmetrically about the centre passes, with a dip between neighbouring lines: a
+    broad line falls off like 1:2:3:2:1 too (a Lorentzian 6 Hz wide stands at 0.65 and
+    0.32 of its top 2.2 and 4.4 Hz out), and the top of an analyte multiplet is flat.
     """
-    _, first, second = quintet_ratios(spectrum, i)
+    j, first, second = quintet_ratios(spectrum, i)
     resolved = 0.4 <= first <= 0.9 and 0.12 <= second <= 0.6 and second < first
+    if resolved_only:
+        if not resolved:
+            return False
+        far_l, dip2_l, near_l, dip1_l, dip1_r, near_r, dip2_r, far_r = _quintet_sides(spectrum, i, j)
+        symmetric = (min(near_l, near_r, far_l, far_r) > 0
+                     and max(near_l, near_r) <= 1.5 * min(near_l, near_r)
+                     and max(far_l, far_r) <= 1.5 * min(far_l, far_r))
+        separated = max(dip1_l, dip1_r) < min(near_l, near_r) and max(dip2_l, dip2_r) < min(far_l, far_r)
+        return bool(symmetric and separated)
     unresolved = first > 0.9 and second > 0.5
     return resolved or unresolved
 
@@ -153,7 +174,7 @@ def find_peak(
     isolated_hz: float | None = None,
     pattern: str = "s",
     unique: bool = False,
-    satellites: bool = False,
+    far: bool = False,
 ) -> float | None:
     """Shift of the reference line near ``centre_ppm``, or None.
 
@@ -168,7 +189,9 @@ def find_peak(
     taller line are never taken (:func:`is_carbon_satellite`), and with
     ``pattern='quint'`` a candidate must show the 1:2:3:2:1 lines of a CHD2 group
     (:func:`quintet_ratios`). With ``unique``, a window holding more than one
-    candidate gives None (the choice between them would be a guess).
+    candidate gives None (the choice between them would be a guess). With ``far``
+    (a search tenths of a ppm from the table value, where position says little) a
+    singlet must show its 13C satellites and a quintet must be resolved and symmetric.
     """
     y = spectrum.data.real
     floor = min_snr * noise_level(y)
@@ -184,8 +207,8 @@ def find_peak(
             idx = [i for i in idx if _is_isolated(spectrum, i, isolated_hz)]
         idx = [i for i in idx if not is_carbon_satellite(spectrum, i)]
         if pattern == "quint":
-            idx = [i for i in idx if looks_like_quintet(spectrum, i)]
-        elif satellites:
+            idx = [i for i in idx if looks_like_quintet(spectrum, i, resolved_only=far)]
+        elif far:
             idx = [i for i in idx if has_carbon_satellites(spectrum, i)]
         if not idx:
             continue
@@ -256,8 +279,9 @@ def reference_axis(
                                isolated_hz=SINGLET_ISOLATION_HZ if (singlet and isolated) else None,
                                pattern=sig.multiplicity, unique=unique,
                                # Tenths of a ppm from its table value a singlet is the residual only
-                               # when its 13C satellites say it is a C-H line of that size.
-                               satellites=window > CLOSE_PPM)
+                               # when its 13C satellites say it is a C-H line of that size, and a
+                               # CHD2 residual only when its quintet is resolved.
+                               far=window > CLOSE_PPM)
                 if at is not None:
                     if singlet and not isolated:
                         label += " (beside analyte lines)"

@@ -15,7 +15,6 @@ BRUKER = ["aminoacid-mix-d2o-600", "aminoacid-mix-undried-1", "culture-medium-d2
 #: Recordings whose observed total does not (yet) reach the structure's H count, with the
 #: figure measured when this list was last updated. Kept visible, not tuned around.
 COUNT_MISSES: dict[str, str] = {
-    "2759-55-9": "measured 8.7 H (4.7-9.2), ambiguous between 5.3 and 8.7 H, for 12 C-H + 1 NH: broad merged regions (aromatic 8.27-7.35 and 1.61-0.71 ppm) and a line at 1.65 ppm inside a multiplet that may be water",
     "50-78-2": "measured 6.0 H (5.5-6.5) for 7 C-H + 1 COOH: one aromatic H lies under the CHCl3 line and goes with it",
     "517920-70-6": "measured 16.1 H (15.3-16.9) for 2 C-H + 2 exchangeable: most of the signal is not from the listed structure (impurities)",
 }

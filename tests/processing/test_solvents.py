@@ -131,6 +131,23 @@ def test_chd2_quintet_recognised_and_a_singlet_beside_it_refused():
     assert ref.kind == "none"
 
 
+def test_broad_line_far_from_the_table_is_not_an_unresolved_quintet():
+    """A CHD2 residual too broad to resolve is recognised only near its table value: tenths of a
+    ppm away a broad analyte line (here 6 Hz wide, 0.29 ppm below acetone-d5's 2.05 ppm; Gottlieb
+    1997, from memory) is as flat over +-2J(H,D) as a merged quintet, so position says nothing and
+    the spectrometer's axis is kept (reference 'none')."""
+    from nmrcheck.processing.reference import reference_axis
+    from nmrcheck.synth import Line
+
+    analyte = [Line(1.76, 1.0, 6.0), Line(7.20, 2.0, 1.0, (8.0,)), Line(2.60, 3.0, 0.8)]
+    _, ref = reference_axis(_spectrum_with(analyte))
+    assert ref.kind == "none"
+    # A resolved quintet as far off is still taken, broad line or not (J(H,D) 2.2 Hz, lines 0.6 Hz).
+    quintet = [Line(2.05 + k * 2.2 / 400.0, 0.3 * w / 9.0, 0.6) for k, w in zip((-2, -1, 0, 1, 2), (1, 2, 3, 2, 1))]
+    _, ref = reference_axis(_spectrum_with(quintet + analyte, offset_ppm=-0.2))
+    assert ref.line == "acetone-d5" and ref.found_ppm == pytest.approx(1.85, abs=0.005)
+
+
 def test_carbon_satellite_of_dss_is_never_taken_for_dss():
     """DSS's methyl 13C satellites sit at +-59 Hz (1J(C,H) about 118 Hz; common practice) with 0.55 %
     each: with the spectrometer's axis 0.09 ppm off at 600 MHz, the satellite lies nearer to 0 ppm
