@@ -548,8 +548,13 @@ def _search(parsed, ppm, mda, isotopes, elements, rules, max_candidates, prior, 
         isotope_agrees = chi2 <= agreement_limit(dof)
 
     score = base + (iso_part if iso_part is not None else 0.0)
-    # Best score first; ties by smaller mass error, then formula mass.
-    order = np.lexsort((masses, np.abs(mean_ppm), -score))[:max_candidates]
+    # Best score first; ties by smaller mass error, then formula mass. Only the rows scoring at
+    # least the max_candidates-th best score can be shown: sort those.
+    shown = np.arange(len(table))
+    if len(table) > max_candidates:
+        kth = np.partition(score, len(table) - max_candidates)[len(table) - max_candidates]
+        shown = np.flatnonzero(score >= kth)
+    order = shown[np.lexsort((masses[shown], np.abs(mean_ppm[shown]), -score[shown]))][:max_candidates]
     # Every rule is reported for the candidates shown, whether the preset filters on it or not.
     verdicts = evaluate_rules(table.take(order), ratio_range=ratio_range_of(rules))
     if iso_part is not None:

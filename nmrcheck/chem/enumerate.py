@@ -1,13 +1,15 @@
 """Exhaustive enumeration of elemental compositions within a mass window, over per-element ranges.
 
 Method: meet in the middle. The elements are split in two groups; every composition of the
-first group (always carbon and hydrogen, plus as many others as keep the table small) is
-tabulated once, sorted by mass, and cached; for each composition of the second group a
-binary search finds the first-group compositions that complete it to a mass inside the
-window. With carbon and hydrogen in the sorted table, the hydrogen (and carbon) count is
-solved by the mass window rather than looped over. The result is exact: every composition
-inside the ranges and the window, and no other (``tests/chem/test_enumerate.py`` checks it
-against brute force).
+first group (always carbon and hydrogen, plus as many others as keep the table below a few
+million rows) is tabulated once, sorted by mass, binned by mass (one bin per part per
+million of the mass range, each bin's first row kept), and cached; for each composition of
+the second group a lookup in the bins finds the first-group compositions that complete it
+to a mass inside the window. With carbon and hydrogen in the sorted table, the hydrogen (and
+carbon) count is solved by the mass window rather than looped over. A proton bound restricts
+the first group to its rows with enough hydrogens before pairing. The result is exact: every
+composition inside the ranges and the window, and no other (``tests/chem/test_enumerate.py``
+checks it against brute force).
 """
 
 from __future__ import annotations
@@ -44,8 +46,9 @@ DEFAULT_ELEMENTS = "C H N O P S"
 """Default element set (ranges from the mass and, with the golden rules, their rule 1)."""
 
 # Size of the sorted first-group table the split aims for: large enough that few
-# second-group compositions remain to be searched, small enough to sort in well under a
-# second and to keep in memory for the next query.
+# second-group compositions remain to be searched (a query's work grows with them), small
+# enough to build in about a second (then read from the disk cache in a tenth of that) and to
+# keep in memory for the next query.
 _FIRST_GROUP_SIZE = 2_500_000
 _SECOND_GROUP_TARGET = 20_000
 _SECOND_GROUP_CHUNK = 200_000
@@ -307,6 +310,49 @@ def _prune(counts, symbols, bounds_rest, pruning: Pruning, cap: float) -> np.nda
 
 
 @dataclass(frozen=True, eq=False)
+class _Bins:
+    """Where each mass bin starts in one parity segment of a group: a lookup in constant time.
+
+    Row ``i`` of the segment lies in bin ``floor((mass_i - origin) * per_u)``; rows of bin k
+    are ``[start[k], start[k+1])``. Keys are binned by the same arithmetic, which is monotone,
+    so every row with a mass in ``[x, y]`` lies in the bins of ``x`` to ``y``.
+    """
+
+    origin: float
+    per_u: float
+    start: np.ndarray  # int32, one more entry than bins
+
+    def rows(self, x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """First and one-past-last segment rows that can have a mass in ``[x, y]`` (a superset, by whole bins)."""
+        last = self.start.size - 1
+        # Truncation equals the rows' floor for keys at or above the origin; keys below it
+        # are clipped to the first bin either way.
+        lo = ((x - self.origin) * self.per_u).astype(np.intp)
+        hi = ((y - self.origin) * self.per_u).astype(np.intp)
+        hi += 1
+        np.clip(lo, 0, last, out=lo)
+        np.clip(hi, 0, last, out=hi)
+        return self.start[lo], self.start[hi]
+
+
+# Bins of one part per million of the mass cap: a few per mass window at any tolerance this
+# engine accepts, and a million int32 entries (4 MB) at most per segment.
+_BINS_PER_CAP = 1_000_000
+
+
+def _bins(masses: np.ndarray, cap: float) -> _Bins:
+    per_u = _BINS_PER_CAP / cap
+    if masses.size == 0:
+        return _Bins(0.0, per_u, np.zeros(1, dtype=np.int32))
+    origin = float(masses[0])
+    row_bin = ((masses - origin) * per_u).astype(np.intp)
+    n_bins = int(row_bin[-1]) + 1
+    start = np.searchsorted(row_bin, np.arange(n_bins + 1), side="left").astype(np.int32)
+    start.setflags(write=False)
+    return _Bins(origin, per_u, start)
+
+
+@dataclass(frozen=True, eq=False)
 class _Group:
     """Compositions of a group of elements, sorted by (valence parity, mass)."""
 
@@ -315,9 +361,15 @@ class _Group:
     masses: np.ndarray
     parity_start: tuple[int, int, int]  # rows [start[p], start[p+1]) have parity p
     weights: np.ndarray  # sum of (valence - 2) * count per row: 2 RDBE - 2 of the part
+    bins: tuple[_Bins, _Bins] | None  # of each parity segment (the tabulated group only)
+    lightest_with_h: tuple[np.ndarray, np.ndarray] | None
+    """Per parity segment, the smallest mass of a row with at least h hydrogens, by h (inf
+    beyond the largest count); None when hydrogen is not in the group."""
+    least_complete: np.ndarray | None
+    """Searched group: mass of each row plus the carbon its element/C ratio maxima need."""
 
 
-def _sorted_group(columns, counts, bounds) -> _Group:
+def _sorted_group(columns, counts, bounds, cap, indexed, pruning) -> _Group:
     symbols = [bounds[i][0] for i in columns]
     masses = counts @ np.array([element(s).monoisotopic_mass for s in symbols]) if columns else np.zeros(counts.shape[0])
     odd = np.array([(element(s).valence - 2) % 2 for s in symbols], dtype=np.int64)
@@ -325,11 +377,14 @@ def _sorted_group(columns, counts, bounds) -> _Group:
     order = np.lexsort((masses, parity))
     counts = np.ascontiguousarray(counts[order])
     n_even = int(np.count_nonzero(parity == 0))
-    return _group_of_sorted(tuple(columns), counts, bounds, (0, n_even, counts.shape[0]))
+    return _group_of_sorted(tuple(columns), counts, bounds, (0, n_even, counts.shape[0]), cap, indexed, pruning)
 
 
-def _group_of_sorted(columns, counts, bounds, parity_start) -> _Group:
-    """A group from counts already sorted by (parity, mass); masses and weights recomputed exactly as when sorting."""
+def _group_of_sorted(columns, counts, bounds, parity_start, cap, indexed, pruning: Pruning) -> _Group:
+    """A group from counts already sorted by (parity, mass); masses and weights recomputed exactly as when sorting.
+
+    ``indexed``: the group is the tabulated one, looked up by mass (bins and lightest masses by H count).
+    """
     symbols = [bounds[i][0] for i in columns]
     masses = counts @ np.array([element(s).monoisotopic_mass for s in symbols]) if columns else np.zeros(counts.shape[0])
     masses = np.ascontiguousarray(masses)
@@ -338,10 +393,31 @@ def _group_of_sorted(columns, counts, bounds, parity_start) -> _Group:
     # Cached and shared between queries: nobody may write into them.
     for array in (counts, masses, weights):
         array.setflags(write=False)
-    return _Group(tuple(columns), counts, masses, tuple(parity_start), weights)
+    segments = [slice(parity_start[p], parity_start[p + 1]) for p in (0, 1)]
+    bins = tuple(_bins(masses[seg], cap) for seg in segments) if indexed else None
+    lightest = None
+    if indexed and "H" in symbols:
+        h = counts[:, symbols.index("H")].astype(np.intp)
+        lightest = []
+        for seg in segments:
+            least = np.full(int(h.max(initial=0)) + 2, np.inf)
+            np.minimum.at(least, h[seg], masses[seg])
+            least = np.minimum.accumulate(least[::-1])[::-1]
+            least.setflags(write=False)
+            lightest.append(least)
+        lightest = tuple(lightest)
+    least = None
+    if not indexed and pruning.needs_carbon and any(s == "C" for s, _, _ in bounds) and "C" not in symbols:
+        c_min = np.ones(counts.shape[0])
+        for symbol, rmax in pruning.carbon_ratio_max:
+            if symbol in symbols and rmax > 0:
+                c_min = np.maximum(c_min, np.ceil(counts[:, symbols.index(symbol)] / rmax - 1e-9))
+        least = masses + c_min * element("C").monoisotopic_mass
+        least.setflags(write=False)
+    return _Group(tuple(columns), counts, masses, tuple(parity_start), weights, bins, lightest, least)
 
 
-_TABLE_FORMAT = "1"
+_TABLE_FORMAT = "2"
 _SAVE_AFTER_S = 0.1  # tables that build faster than this are not worth a file
 
 
@@ -361,7 +437,7 @@ def _groups(bounds, pruning: Pruning, cap: float) -> tuple[_Group, _Group]:
         masses = tuple(element(s).monoisotopic_mass for s, _, _ in bounds)
         key = repr((_TABLE_FORMAT, bounds, masses, pruning, cap, _FIRST_GROUP_SIZE, _SECOND_GROUP_TARGET))
         path = folder / f"{hashlib.sha256(key.encode()).hexdigest()[:24]}.npz"
-        loaded = _load_groups(path, bounds)
+        loaded = _load_groups(path, bounds, cap, pruning)
         if loaded is not None:
             return loaded
     started = time.perf_counter()
@@ -377,17 +453,17 @@ def _table_cache():
     return user_cache_dir("formula-tables")
 
 
-def _load_groups(path, bounds) -> tuple[_Group, _Group] | None:
+def _load_groups(path, bounds, cap, pruning) -> tuple[_Group, _Group] | None:
     try:
         with np.load(path) as data:
             out = []
-            for g in ("a", "b"):
+            for g, indexed in (("a", True), ("b", False)):
                 columns = tuple(int(c) for c in data[f"{g}_columns"])
                 counts = np.ascontiguousarray(data[f"{g}_counts"])
                 parity = tuple(int(x) for x in data[f"{g}_parity"])
                 if counts.ndim != 2 or counts.shape[1] != len(columns) or parity[2] != counts.shape[0]:
                     return None
-                out.append(_group_of_sorted(columns, counts, bounds, parity))
+                out.append(_group_of_sorted(columns, counts, bounds, parity, cap, indexed, pruning))
             return out[0], out[1]
     except (OSError, KeyError, ValueError, EOFError):
         return None
@@ -410,11 +486,27 @@ def _save_groups(path, groups) -> None:
         return
 
 
+def _extended_size(counts, symbols, bound, pruning: Pruning, cap: float) -> int:
+    """Upper bound on the rows of ``counts`` extended by one more element, from the mass cap and
+    the element's ratio to carbon (the cheap part of :func:`_prune`)."""
+    symbol, lo, hi = bound
+    mass = counts @ np.array([element(s).monoisotopic_mass for s in symbols]) if symbols else np.zeros(counts.shape[0])
+    most = np.floor((cap + 1e-6 - mass) / element(symbol).monoisotopic_mass)
+    most = np.minimum(most, hi)
+    if "C" in symbols:
+        for s, rmax in pruning.carbon_ratio_max:
+            if s == symbol:
+                most = np.minimum(most, np.floor(rmax * counts[:, symbols.index("C")] + 1e-9))
+    return int(np.clip(most - lo + 1, 0, None).sum())
+
+
 def _build_groups(bounds, pruning: Pruning, cap: float) -> tuple[_Group, _Group]:
     """Split the elements into a tabulated and a searched group and build both (cached).
 
-    Carbon and hydrogen go first into the tabulated group, then the other elements, widest
-    range first, while the pruned table stays below ``_FIRST_GROUP_SIZE`` rows.
+    Carbon and hydrogen go first into the tabulated group; then, widest range first, every
+    other element whose addition keeps the pruned table below ``_FIRST_GROUP_SIZE`` rows
+    (judged from a bound on its size before the table is built). A query's work grows with
+    the searched group, so the tabulated one is filled as far as the size allows.
     """
     symbols = [s for s, _, _ in bounds]
     order = [i for i, s in enumerate(symbols) if s == "C"] + [i for i, s in enumerate(symbols) if s == "H"]
@@ -422,19 +514,19 @@ def _build_groups(bounds, pruning: Pruning, cap: float) -> tuple[_Group, _Group]
     sizes = {i: bounds[i][2] - bounds[i][1] + 1 for i in range(len(bounds))}
     first: list[int] = []
     counts = np.zeros((1, 0), dtype=np.int16)
-    for k, i in enumerate(order):
+    for i in order:
         essential = symbols[i] in ("C", "H") or not first
         if not essential:
-            if math.prod(sizes[j] for j in order[k:]) <= _SECOND_GROUP_TARGET:
+            if math.prod(sizes[j] for j in order if j not in first) <= _SECOND_GROUP_TARGET:
                 break
-            if counts.shape[0] * sizes[i] > 3 * _FIRST_GROUP_SIZE:
-                break
+            if _extended_size(counts, [symbols[j] for j in first], bounds[i], pruning, cap) > _FIRST_GROUP_SIZE:
+                continue
         trial = _cross(counts, bounds[i][1], bounds[i][2])
         cols = first + [i]
         rest = [bounds[j] for j in range(len(bounds)) if j not in cols]
         trial = trial[_prune(trial, [symbols[j] for j in cols], rest, pruning, cap)]
         if not essential and trial.shape[0] > _FIRST_GROUP_SIZE:
-            break
+            continue
         first, counts = cols, trial
     second = [i for i in order if i not in first]
     b_counts = np.zeros((1, 0), dtype=np.int16)
@@ -453,9 +545,27 @@ def _build_groups(bounds, pruning: Pruning, cap: float) -> tuple[_Group, _Group]
     # Columns in ascending index order, as _search expects.
     a_order = np.argsort(first)
     b_order = np.argsort(done) if done else np.zeros(0, dtype=np.int64)
-    a = _sorted_group(tuple(sorted(first)), counts[:, a_order], bounds)
-    b = _sorted_group(tuple(sorted(done)), b_counts[:, b_order], bounds)
+    a = _sorted_group(tuple(sorted(first)), counts[:, a_order], bounds, cap, True, pruning)
+    b = _sorted_group(tuple(sorted(done)), b_counts[:, b_order], bounds, cap, False, pruning)
     return a, b
+
+
+_H_STEP = 8
+
+
+# Up to about 18 MB each (two int32 arrays over the tabulated group).
+@lru_cache(maxsize=4)
+def _rows_with_h(a: _Group, h_column: int, fewest: int) -> tuple[np.ndarray, np.ndarray]:
+    """Rows of the tabulated group with at least ``fewest`` hydrogens (in table order, so by
+    parity and mass), and for every row index of the group its position among them."""
+    h = a.counts[:, a.columns.index(h_column)]
+    enough = h >= fewest
+    subset = np.flatnonzero(enough).astype(np.int32)
+    position = np.zeros(h.size + 1, dtype=np.int32)
+    np.cumsum(enough, out=position[1:])
+    for array in (subset, position):
+        array.setflags(write=False)
+    return position, subset
 
 
 def _search(low, high, bounds, pruning: Pruning, cap: float) -> FormulaTable:
@@ -463,8 +573,18 @@ def _search(low, high, bounds, pruning: Pruning, cap: float) -> FormulaTable:
     a, b = _groups(bounds, _table_pruning(pruning), cap)
     if a.masses.size == 0 or b.masses.size == 0:
         return _empty(symbols)
-    a_symbols = [symbols[i] for i in a.columns]
-    b_symbols = [symbols[i] for i in b.columns]
+    # Pairs whose summed masses lie within these bounds; the exact window is applied last, on
+    # the masses of the whole compositions.
+    low_key, high_key = low - 1e-9, high + 1e-9
+    with_h = None
+    if pruning.visible_h is not None and a.lightest_with_h is not None:
+        # A proton bound needs at least low - offset hydrogens, all of them in the first group:
+        # only its rows with that many (rounded down to a step, so that the subset serves
+        # nearby bounds too) are paired.
+        fewest = max(pruning.visible_h[0] - pruning.visible_h[2], 0)
+        step = fewest // _H_STEP * _H_STEP
+        if step > 0:
+            with_h = _rows_with_h(a, symbols.index("H"), step)
     pieces_a, pieces_b = [], []
     for b_parity in (0, 1):
         b_start, b_stop = b.parity_start[b_parity], b.parity_start[b_parity + 1]
@@ -475,37 +595,55 @@ def _search(low, high, bounds, pruning: Pruning, cap: float) -> FormulaTable:
             a_start, a_stop = a.parity_start[a_parity], a.parity_start[a_parity + 1]
             if a_start == a_stop or b_start == b_stop:
                 continue
-            a_mass = a.masses[a_start:a_stop]
+            a_lightest = a.masses[a_start]
+            if pruning.visible_h is not None and a.lightest_with_h is not None:
+                fewest = min(max(pruning.visible_h[0] - pruning.visible_h[2], 0), a.lightest_with_h[a_parity].size - 1)
+                a_lightest = max(a_lightest, a.lightest_with_h[a_parity][fewest])
+                if not np.isfinite(a_lightest):
+                    continue
             b_mass = b.masses[b_start:b_stop]
             # Second-group parts that some first-group part can complete into the window.
-            lo_b = np.searchsorted(b_mass, low - a_mass[-1] - 1e-9, side="left")
-            hi_b = np.searchsorted(b_mass, high - a_mass[0] + 1e-9, side="right")
-            b_index = np.arange(b_start + lo_b, b_start + hi_b)
-            if pruning.needs_carbon and "C" in a_symbols and b_index.size:
+            lo_b = np.searchsorted(b_mass, low_key - a.masses[a_stop - 1], side="left")
+            hi_b = np.searchsorted(b_mass, high_key - a_lightest, side="right")
+            if b.least_complete is not None:
                 # Ratio maxima for elements of the second group: the carbon they need adds mass.
-                c_min = np.ones(b_index.size)
-                for symbol, rmax in pruning.carbon_ratio_max:
-                    if symbol in b_symbols and rmax > 0:
-                        need = np.ceil(b.counts[b_index, b_symbols.index(symbol)] / rmax - 1e-9)
-                        c_min = np.maximum(c_min, need)
-                b_index = b_index[b.masses[b_index] + c_min * element("C").monoisotopic_mass <= high + 1e-9]
+                fits = b.least_complete[b_start + lo_b : b_start + hi_b] <= high_key
+                b_index = np.flatnonzero(fits) + (b_start + lo_b)
+            else:
+                b_index = np.arange(b_start + lo_b, b_start + hi_b)
+            bins = a.bins[a_parity]
             for start in range(0, b_index.size, _SECOND_GROUP_CHUNK):
                 chunk = b_index[start : start + _SECOND_GROUP_CHUNK]
                 mb = b.masses[chunk]
-                # Keys in ascending order (b masses ascend, so low - mb descends): NumPy's binary
-                # search then starts each key where the previous one ended.
-                lo_i = np.searchsorted(a_mass, low - mb[::-1] - 1e-9, side="left")[::-1]
-                hi_i = np.searchsorted(a_mass, high - mb[::-1] + 1e-9, side="right")[::-1]
+                lo_i, hi_i = bins.rows(low_key - mb, high_key - mb)
                 n = hi_i - lo_i
                 hit = n > 0
                 if not hit.any():
                     continue
-                chunk, lo_i, n = chunk[hit], lo_i[hit], n[hit]
-                total = int(n.sum())
-                # first-group rows lo_i[j] .. lo_i[j]+n[j]-1 complete second-group row chunk[j]
-                offsets = np.arange(total) - np.repeat(np.cumsum(n) - n, n)
-                pieces_a.append(a_start + np.repeat(lo_i, n) + offsets)
-                pieces_b.append(np.repeat(chunk, n))
+                chunk, lo_i, hi_i = chunk[hit], lo_i[hit] + a_start, hi_i[hit] + a_start
+                if with_h is not None:
+                    # The same rows, as positions in the subset with enough hydrogens.
+                    position, subset = with_h
+                    lo_i, hi_i = position[lo_i], position[hi_i]
+                    n = hi_i - lo_i
+                    hit = n > 0
+                    if not hit.any():
+                        continue
+                    chunk, lo_i, n = chunk[hit], lo_i[hit], n[hit]
+                else:
+                    n = hi_i - lo_i
+                # rows (positions) lo_i[j] .. lo_i[j]+n[j]-1 may complete second-group row chunk[j]
+                ends = np.cumsum(n)
+                ia = np.arange(int(ends[-1]), dtype=np.intp) + np.repeat(lo_i - (ends - n), n)
+                if with_h is not None:
+                    ia = subset[ia]
+                ib = np.repeat(chunk, n)
+                total = a.masses[ia] + b.masses[ib]
+                keep = (total >= low_key) & (total <= high_key)
+                if pruning.rdbe_nonnegative:
+                    keep &= a.weights[ia] + b.weights[ib] >= -2
+                pieces_a.append(ia[keep])
+                pieces_b.append(ib[keep])
     if not pieces_a:
         return _empty(symbols)
     ia = np.concatenate(pieces_a)
@@ -525,7 +663,7 @@ def _search(low, high, bounds, pruning: Pruning, cap: float) -> FormulaTable:
 
 def _pair_filter(ia, ib, a: _Group, b: _Group, symbols, pruning: Pruning) -> np.ndarray | None:
     """Mask of the (first-group row, second-group row) pairs that pass the whole-composition
-    constraints of ``pruning`` (RDBE >= 0, element-probability groups, proton bound); None: all."""
+    constraints of ``pruning`` (element-probability groups, proton bound); None: all."""
 
     gathered: dict[str, np.ndarray | None] = {}
 
@@ -541,9 +679,7 @@ def _pair_filter(ia, ib, a: _Group, b: _Group, symbols, pruning: Pruning) -> np.
                     gathered[symbol] = b.counts[:, b.columns.index(j)][ib].astype(np.int32)
         return gathered[symbol]
 
-    keep = None
-    if pruning.rdbe_nonnegative:
-        keep = a.weights[ia] + b.weights[ib] >= -2
+    keep = None  # RDBE >= 0 is applied while the pairs are found
     for group_more_than, group_limits in pruning.probability_groups:
         cols = [column(s) for s, _ in group_limits]
         if any(c is None for c in cols):

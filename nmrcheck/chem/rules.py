@@ -163,24 +163,33 @@ def _valence_vector(table: FormulaTable) -> np.ndarray:
     return np.array([element(s).valence for s in table.elements], dtype=np.int64)
 
 
+def _weighted_sum(table: FormulaTable, weights) -> np.ndarray:
+    """Sum over the columns of count * weight, column by column (integer products without a matrix copy)."""
+    total = np.zeros(len(table), dtype=np.int64)
+    for j, w in enumerate(weights):
+        if w:
+            total += table.counts[:, j] * int(w)
+    return total
+
+
 def _rule_rdbe(table: FormulaTable, ratio_range: str) -> np.ndarray:
-    weight = table.counts @ (_valence_vector(table) - 2)  # 2*RDBE - 2
+    weight = _weighted_sum(table, _valence_vector(table) - 2)  # 2*RDBE - 2
     return (weight % 2 == 0) & (weight >= -2)
 
 
 def _rule_nitrogen(table: FormulaTable, ratio_range: str) -> np.ndarray:
-    nominal = table.counts @ np.array([element(s).nominal_mass for s in table.elements], dtype=np.int64)
+    nominal = _weighted_sum(table, [element(s).nominal_mass for s in table.elements])
     return (nominal % 2) == (table.column("N") % 2)
 
 
 def _rule_lewis_senior(table: FormulaTable, ratio_range: str) -> np.ndarray:
     valence = _valence_vector(table)
-    valence_sum = table.counts @ valence
-    atoms = table.counts.sum(axis=1)
-    if len(table):
-        max_valence = np.where(table.counts > 0, valence[None, :], 0).max(axis=1)
-    else:
-        max_valence = np.zeros(0, dtype=np.int64)
+    valence_sum = _weighted_sum(table, valence)
+    atoms = _weighted_sum(table, [1] * len(valence))
+    max_valence = np.zeros(len(table), dtype=np.int64)
+    for j in np.argsort(valence, kind="stable"):
+        # Ascending valence: the last element present sets the largest valence.
+        max_valence[table.counts[:, j] > 0] = valence[j]
     # SENIOR: (i) even sum of valences (LEWIS parity), (ii) at least twice the largest
     # valence, (iii) at least twice the number of atoms minus one.
     return (valence_sum % 2 == 0) & (valence_sum >= 2 * max_valence) & (valence_sum >= 2 * (atoms - 1))
@@ -278,6 +287,8 @@ def evaluate_rules(
 def rule_mask(table: FormulaTable, rules: tuple[str, ...], *, ratio_range: str = "common") -> np.ndarray:
     """Boolean mask of the rows of ``table`` passing every rule of ``rules`` (see :func:`filter_rules`)."""
     mask = np.ones(len(table), dtype=bool)
+    # Column-major counts: the rules read whole columns.
+    table = FormulaTable(table.elements, np.asfortranarray(table.counts), table.masses)
     for rule in rules:
         mask &= _RULES[rule](table, ratio_range)
     return mask

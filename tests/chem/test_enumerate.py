@@ -152,3 +152,40 @@ def test_tables_cached_on_disk_give_the_same_compositions(tmp_path, monkeypatch)
     enumerate_module._groups.cache_clear()
     assert set(enumerate_formulas(400.10, 400.12, ranges).formulas()) == set(built.formulas())
     enumerate_module._groups.cache_clear()
+
+
+def test_small_first_group_skips_elements_and_stays_exact(monkeypatch):
+    """With a tabulated group too small for the widest ranges, the split passes over the elements
+    that do not fit and takes smaller ones after them; the compositions found are still every one
+    in the window (brute force)."""
+    import nmrcheck.chem.enumerate as enumerate_module
+
+    ranges = {"C": (0, 10), "H": (0, 20), "N": (0, 6), "O": (0, 5), "P": (0, 1), "S": (0, 2), "Cl": (0, 2), "Br": (0, 1)}
+    monkeypatch.setattr(enumerate_module, "_FIRST_GROUP_SIZE", 500)
+    monkeypatch.setattr(enumerate_module, "_SECOND_GROUP_TARGET", 1)
+    enumerate_module._groups.cache_clear()
+    try:
+        a, b = enumerate_module._groups(
+            tuple((s, lo, hi) for s, (lo, hi) in sorted(ranges.items())), enumerate_module.Pruning(), 500.0
+        )
+        symbols = sorted(ranges)
+        first = {symbols[i] for i in a.columns}
+        assert {"C", "H"} <= first and "N" not in first and first & {"P", "Cl", "Br", "S", "O"}
+        for low, high in ((255.0, 255.4), (301.0, 301.2)):
+            assert as_set(enumerate_formulas(low, high, ranges)) == brute_force(low, high, ranges)
+    finally:
+        enumerate_module._groups.cache_clear()
+
+
+@pytest.mark.parametrize("visible", [(10, 12), (17, 17), (24, 40)])
+def test_proton_bound_in_the_enumeration_is_the_proton_filter(visible):
+    """The proton bound (H visible from H - E to H, E = O + S + 2 N exchangeable) applied while
+    enumerating keeps exactly the compositions that the bound keeps when applied afterwards."""
+    from nmrcheck.chem.enumerate import Pruning
+
+    ranges = {"C": (0, 22), "H": (0, 40), "N": (0, 4), "O": (0, 8), "S": (0, 2), "Cl": (0, 1)}
+    every = enumerate_formulas(352.0, 352.2, ranges)
+    h, o, n, s = (every.column(x).astype(int) for x in ("H", "O", "N", "S"))
+    expected = as_set(every.take((h >= visible[0]) & (h - o - s - 2 * n <= visible[1])))
+    assert expected
+    assert as_set(enumerate_formulas(352.0, 352.2, ranges, pruning=Pruning(visible_h=(visible[0], visible[1], 0)))) == expected
