@@ -342,9 +342,11 @@ def plate_run(manifest, out_dir, workers, well_timeout, well_memory, watch, time
         read_assay(assay_path)  # a broken assay file stops the run before any well is screened
     lcms = None
     if lcms_run or timetable:
+        from nmrcheck.ms.features import FeatureOptions
         from nmrcheck.plate.lcms import attach_run
 
-        plate, lcms = attach_run(plate, lcms_run, timetable, collector_delay_min=collector_delay_min)
+        feature_options = FeatureOptions() if mass_tolerance_ppm is None else FeatureOptions(tolerance_ppm=mass_tolerance_ppm)
+        plate, lcms = attach_run(plate, lcms_run, timetable, collector_delay_min=collector_delay_min, options=feature_options)
     processing = ProcessingOptions() if lb_hz is None else ProcessingOptions(lb_hz=lb_hz)
     options = ScreenOptions(processing=processing)
     if mass_tolerance_ppm is not None:
@@ -420,14 +422,16 @@ def plate_run(manifest, out_dir, workers, well_timeout, well_memory, watch, time
 @click.option("--spectrum", default="fids/{well}/1", show_default=True, help="Recording path of wells the existing manifest does not name.")
 @click.option("--out", "out_path", type=click.Path(dir_okay=False), default=None, help="Write the plate manifest here (CSV).")
 @click.option("--json", "as_json", is_flag=True, help="Print every well's features and the MS/MS groups as JSON.")
+@click.option("--mass-tolerance", "mass_tolerance_ppm", type=Number(0, 100), default=DEFAULT_TOLERANCE_PPM, show_default=True, help="HRMS tolerance of one ion's m/z, ppm.")
 @user_errors
-def plate_features(run, timetable, collector_delay_min, existing, spectrum, out_path, as_json) -> None:
+def plate_features(run, timetable, collector_delay_min, existing, spectrum, out_path, as_json, mass_tolerance_ppm) -> None:
     """Per-well MS features from the extract's LC-MS RUN (mzML) and the fraction TIMETABLE; optionally write the manifest."""
     import json
 
+    from nmrcheck.ms.features import FeatureOptions
     from nmrcheck.plate.lcms import analyse_run, features_text, manifest_rows, write_manifest
 
-    lcms = analyse_run(run, timetable, collector_delay_min=collector_delay_min)
+    lcms = analyse_run(run, timetable, collector_delay_min=collector_delay_min, options=FeatureOptions(tolerance_ppm=mass_tolerance_ppm))
     if out_path:
         from nmrcheck.plate import read_manifest
 

@@ -32,6 +32,7 @@ from nmrcheck.data import load_table
 from nmrcheck.errors import ParameterError
 from nmrcheck.io.mzml import LcmsRun, Scan
 from nmrcheck.io.timetable import FractionWindow, Timetable
+from nmrcheck.tolerances import DEFAULT_TOLERANCE_PPM, PRECURSOR_MATCH_MZ, TRACE_LINK_PPM, masses_agree
 
 __all__ = [
     "FeatureOptions",
@@ -59,10 +60,11 @@ _ISOTOPE_HALF_WIDTH = 0.0110
 class FeatureOptions:
     """How features are found in one well's stretch of the run (masses in ppm or u, times in minutes)."""
 
-    tolerance_ppm: float = 5.0
-    """Mass accuracy: two ions belong to one neutral mass when their masses agree within this."""
-    trace_tolerance_ppm: float = 10.0
-    """Largest m/z step between the centroids of one mass trace in consecutive scans."""
+    tolerance_ppm: float = DEFAULT_TOLERANCE_PPM
+    """Mass accuracy of one ion's m/z (the shared default): two ions belong to one neutral mass
+    when their neutral masses can be the same, each within this (:func:`nmrcheck.tolerances.masses_agree`)."""
+    trace_tolerance_ppm: float = TRACE_LINK_PPM
+    """Largest m/z gap between neighbouring centroids of one mass trace (:data:`nmrcheck.tolerances.TRACE_LINK_PPM`)."""
     min_scans: int = 3
     """A chromatographic peak needs at least this many survey scans with the ion."""
     min_share: float = 0.01
@@ -76,8 +78,8 @@ class FeatureOptions:
     max_charge: int = 3
     margin_min: float = 0.5
     """Context read on each side of the well's window so that peaks cut by it keep their shape."""
-    precursor_tolerance_mz: float = 0.01
-    """An MS/MS scan belongs to an ion when its precursor m/z is this close, u."""
+    precursor_tolerance_mz: float = PRECURSOR_MATCH_MZ
+    """An MS/MS scan belongs to an ion when its precursor m/z is this close, u (:data:`nmrcheck.tolerances.PRECURSOR_MATCH_MZ`)."""
     max_features: int = 30
     species: tuple[str, ...] | None = None
     """Ion species tried when grouping (bracket notation); None: the packaged table."""
@@ -407,10 +409,11 @@ def _envelopes(peaks: list[_Peak], options: FeatureOptions) -> list[_Envelope]:
             env = [[p]]
             for k in range(1, 8):
                 centre = p.mz + k * _ISOTOPE_CENTRE / z
-                half = (_ISOTOPE_HALF_WIDTH + p.mz * options.tolerance_ppm * 1e-6) / z
+                # two measured m/z: each may err by the tolerance
+                half = (_ISOTOPE_HALF_WIDTH + 2 * p.mz * options.tolerance_ppm * 1e-6) / z
                 if k == 1:
                     centre = p.mz + ISOTOPE_SPACING / z
-                    half = (0.008 + p.mz * options.tolerance_ppm * 1e-6) / z
+                    half = (0.008 + 2 * p.mz * options.tolerance_ppm * 1e-6) / z
                 a, b = np.searchsorted(mzs, [centre - half, centre + half])
                 found = [q for q in order[a:b] if not q.used and q is not p and _coelute(p, q, options)]
                 if k == 1:
@@ -484,7 +487,7 @@ def _group_species(ions: list[_Ion], species: tuple[IonSpecies, ...], options: F
                 for j in sorted(free):
                     if j == i or not co(i, j):
                         continue
-                    fits = [(abs(mj - m), t, mj) for mj, t in masses[j] if abs(mj - m) <= m * options.tolerance_ppm * 1e-6]
+                    fits = [(abs(mj - m), t, mj) for mj, t in masses[j] if masses_agree(mj, m, options.tolerance_ppm)]
                     if fits:
                         _, t, mj = min(fits, key=lambda f: (prefs[f[1].notation], f[0]))
                         members[j] = (t, mj)
@@ -652,7 +655,7 @@ def _merge_polarities(features: list[LcmsFeature], options: FeatureOptions) -> l
     for p in pos:
         match = None
         for k, n in enumerate(neg):
-            if k in used or abs(p.neutral_mass - n.neutral_mass) > p.neutral_mass * options.tolerance_ppm * 1e-6:
+            if k in used or not masses_agree(p.neutral_mass, n.neutral_mass, options.tolerance_ppm):
                 continue
             if p.rt_start_min <= n.rt_min <= p.rt_end_min or n.rt_start_min <= p.rt_min <= n.rt_end_min:
                 match = k

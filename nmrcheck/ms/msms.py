@@ -22,6 +22,14 @@ from nmrcheck.chem.adducts import ion_composition, parse_ion
 from nmrcheck.chem.elements import electron_mass, element
 from nmrcheck.chem.formula import Formula, parse_formula
 from nmrcheck.errors import FormulaError, ParameterError
+from nmrcheck.tolerances import (
+    DEFAULT_TOLERANCE_PPM,
+    FRAGMENT_TOLERANCE_MDA,
+    FRAGMENT_TOLERANCE_PPM,
+    MSMS_PEAK_MERGE_MZ,
+    SPECTRUM_MATCH_MZ,
+    masses_agree,
+)
 
 __all__ = [
     "merge_scans",
@@ -36,7 +44,7 @@ __all__ = [
 ]
 
 
-def merge_scans(scans: Sequence, *, tolerance_mz: float = 0.005, min_relative: float = 0.5) -> tuple[np.ndarray, np.ndarray]:
+def merge_scans(scans: Sequence, *, tolerance_mz: float = MSMS_PEAK_MERGE_MZ, min_relative: float = 0.5) -> tuple[np.ndarray, np.ndarray]:
     """One spectrum from several MS/MS scans of the same precursor.
 
     Each scan is scaled to its base peak; peaks within ``tolerance_mz`` are merged
@@ -154,8 +162,8 @@ def assign_fragments(
     *,
     charge: int = 1,
     precursor_mz: float | None = None,
-    tolerance_ppm: float = 10.0,
-    tolerance_mda: float = 2.0,
+    tolerance_ppm: float = FRAGMENT_TOLERANCE_PPM,
+    tolerance_mda: float = FRAGMENT_TOLERANCE_MDA,
     min_relative: float = 10.0,
     max_formulas: int = 3,
 ) -> tuple[FragmentAssignment, ...]:
@@ -242,8 +250,8 @@ def check_fragments(
     intensity: Sequence[float],
     *,
     precursor_mz: float | None = None,
-    tolerance_ppm: float = 10.0,
-    tolerance_mda: float = 2.0,
+    tolerance_ppm: float = FRAGMENT_TOLERANCE_PPM,
+    tolerance_mda: float = FRAGMENT_TOLERANCE_MDA,
     min_relative: float = 10.0,
 ) -> FragmentCheck:
     """Does the candidate ``formula`` (neutral), observed as ``species``, contain every clear fragment?
@@ -289,7 +297,7 @@ def modified_cosine(
     intensity_b: Sequence[float],
     precursor_b: float,
     *,
-    tolerance_mz: float = 0.01,
+    tolerance_mz: float = SPECTRUM_MATCH_MZ,
     intensity_power: float = 1.0,
 ) -> tuple[float, int]:
     """Modified cosine of two spectra and the number of matched peaks.
@@ -378,12 +386,12 @@ def _join(names: list[str]) -> str:
 def spectral_groups(
     spectra: Iterable[tuple[str, float, Any]],
     *,
-    tolerance_mz: float = 0.01,
+    tolerance_mz: float = SPECTRUM_MATCH_MZ,
     min_score: float = 0.7,
     min_matched_peaks: int = 4,
     precursor_window_mz: float = 17.0,
     intensity_power: float = 0.5,
-    mass_tolerance_ppm: float = 5.0,
+    mass_tolerance_ppm: float = DEFAULT_TOLERANCE_PPM,
 ) -> tuple[SpectralGroup, ...]:
     """Group wells whose MS/MS spectra agree by the modified cosine.
 
@@ -403,7 +411,8 @@ def spectral_groups(
         Intensities are raised to this power (0.5: square roots, so a few dominant peaks do
         not decide alone).
     mass_tolerance_ppm
-        Two linked features of equal neutral mass within this are the same compound.
+        Mass accuracy of each feature's neutral mass: two linked features whose masses can be
+        the same within it (:func:`nmrcheck.tolerances.masses_agree`) are the same compound.
     """
     items = []
     for well, mass, s in spectra:
@@ -444,7 +453,7 @@ def spectral_groups(
     for root, members in groups.items():
         glinks = tuple(sorted((link for a, b, link in links if find(a) == root), key=lambda l: (_well_order(l.well_a), _well_order(l.well_b))))
         wells = sorted({items[k][0] for k in members}, key=_well_order)
-        same = all(abs(l.mass_difference) <= max(l.neutral_mass_a, 1.0) * mass_tolerance_ppm * 1e-6 for l in glinks)
+        same = all(masses_agree(l.neutral_mass_a, l.neutral_mass_b, mass_tolerance_ppm) for l in glinks)
         if same:
             mass = items[members[0]][1]
             summary = f"wells {_join(wells)} show the same precursor mass (M {mass:.4f}) and fragments: probably the same compound"

@@ -21,6 +21,7 @@ from typing import Any
 from nmrcheck.errors import ParameterError
 from nmrcheck.ms.features import FeatureOptions, Ms2Spectrum, WellMs, plate_features
 from nmrcheck.ms.msms import SpectralGroup, check_fragments, spectral_groups
+from nmrcheck.tolerances import DEFAULT_TOLERANCE_PPM, FRAGMENT_TOLERANCE_PPM, masses_agree
 
 __all__ = ["PlateLcms", "analyse_run", "attach_run", "features_text", "lcms_summary", "merge_lcms", "manifest_rows", "write_manifest", "save_lcms", "load_lcms", "fragment_checks", "RECORD_KEY"]
 
@@ -165,9 +166,10 @@ def features_text(lcms: PlateLcms) -> str:
     return "\n".join(lines)
 
 
-def _lead_feature(m: WellMs, masses: list[float] | None = None, tolerance_ppm: float = 5.0) -> tuple[int, str] | None:
+def _lead_feature(m: WellMs, masses: list[float] | None = None, tolerance_ppm: float = DEFAULT_TOLERANCE_PPM) -> tuple[int, str] | None:
     """(index, why) of the feature a well's formula search uses: the largest one whose neutral mass is that
-    of a candidate the chemist named, else the largest one."""
+    of a candidate the chemist named (exact masses: the measured one is within ``tolerance_ppm`` of its),
+    else the largest one."""
     if not m.features:
         return None
     for k, f in enumerate(m.features):
@@ -338,14 +340,22 @@ def lcms_summary(out_dir: str | os.PathLike) -> list[str]:
 
 
 def _feature_for(record: dict[str, Any], neutral_mass: float | None, tolerance_ppm: float) -> dict[str, Any] | None:
+    """The largest feature whose (measured) neutral mass can be the measured ``neutral_mass``."""
     feats = record.get("features") or []
     if neutral_mass is None:
         return feats[0] if feats else None
-    near = [f for f in feats if abs(f["neutral_mass"] - neutral_mass) <= neutral_mass * tolerance_ppm * 1e-6]
+    near = [f for f in feats if masses_agree(f["neutral_mass"], neutral_mass, tolerance_ppm)]
     return max(near, key=lambda f: f["share"]) if near else None
 
 
-def fragment_checks(record: dict[str, Any], formulas: list[str], *, neutral_mass: float | None, tolerance_ppm: float = 10.0) -> list[dict[str, Any]]:
+def fragment_checks(
+    record: dict[str, Any],
+    formulas: list[str],
+    *,
+    neutral_mass: float | None,
+    mass_tolerance_ppm: float = DEFAULT_TOLERANCE_PPM,
+    fragment_tolerance_ppm: float = FRAGMENT_TOLERANCE_PPM,
+) -> list[dict[str, Any]]:
     """MS/MS checks of candidate formulas against the well's feature of their neutral mass.
 
     Parameters
@@ -356,8 +366,10 @@ def fragment_checks(record: dict[str, Any], formulas: list[str], *, neutral_mass
         Candidate formulas (Hill).
     neutral_mass
         Neutral mass of the MS feature the candidates were searched for (None: the largest feature).
-    tolerance_ppm
-        Fragment mass tolerance (with a 2 mDa floor).
+    mass_tolerance_ppm
+        Mass accuracy of a survey-scan m/z, for finding that feature.
+    fragment_tolerance_ppm
+        Fragment mass tolerance (with the :data:`nmrcheck.tolerances.FRAGMENT_TOLERANCE_MDA` floor).
 
     Returns
     -------
@@ -366,7 +378,7 @@ def fragment_checks(record: dict[str, Any], formulas: list[str], *, neutral_mass
         the spectrum's precursor, its scans and ``co_isolated_mz``: ions of other features eluting
         then within 1.5 u of the precursor (fragmented with it, so a contradiction is only a doubt).
     """
-    feature = _feature_for(record, neutral_mass, max(10.0, tolerance_ppm))
+    feature = _feature_for(record, neutral_mass, mass_tolerance_ppm)
     if feature is None or not feature.get("ms2"):
         return []
     spectra = [Ms2Spectrum.from_dict(s) for s in feature["ms2"]]
@@ -382,7 +394,7 @@ def fragment_checks(record: dict[str, Any], formulas: list[str], *, neutral_mass
     out = []
     for formula in dict.fromkeys(formulas):
         check = check_fragments(formula, spectrum.species, spectrum.mz, spectrum.intensity, precursor_mz=spectrum.precursor_mz,
-                                tolerance_ppm=tolerance_ppm)
+                                tolerance_ppm=fragment_tolerance_ppm)
         d = check.as_dict()
         d["precursor_mz"] = round(spectrum.precursor_mz, 5)
         d["scans"] = len(spectrum.scan_ids)

@@ -20,11 +20,11 @@ from typing import Any
 import numpy as np
 
 from nmrcheck import __version__
-from nmrcheck.chem.candidates import DEFAULT_TOLERANCE_PPM
 from nmrcheck.errors import InputFileError, NmrcheckError, ParameterError, human_message
 from nmrcheck.plate.manifest import WellSpec, resolve_spectrum
 from nmrcheck.plate.results import SpectrumTrace, WellResult, options_hash
 from nmrcheck.processing import ProcessingOptions
+from nmrcheck.tolerances import DEFAULT_TOLERANCE_PPM
 
 __all__ = ["ScreenOptions", "failure_result", "screen_well", "well_options_hash", "plain"]
 
@@ -303,7 +303,8 @@ def _validate(processed, spec: WellSpec, options: ScreenOptions, objects: list[A
     return [_check_record(by_id[id(v.candidate)], v, evidence) for v in verdicts]
 
 
-def _fragment_checks(spec: WellSpec, lcms: dict[str, Any], records: list[dict[str, Any]], checks: list[dict[str, Any]] | None, notes: list[str]) -> None:
+def _fragment_checks(spec: WellSpec, lcms: dict[str, Any], records: list[dict[str, Any]], checks: list[dict[str, Any]] | None, notes: list[str], *,
+                     mass_tolerance_ppm: float) -> None:
     """MS/MS against each candidate formula: results into ``lcms['fragment_checks']``; a candidate
     whose precursor ion cannot hold a clearly observed fragment becomes inconsistent, with the reason."""
     from nmrcheck.chem.adducts import neutral_mass
@@ -319,7 +320,7 @@ def _fragment_checks(spec: WellSpec, lcms: dict[str, Any], records: list[dict[st
         except NmrcheckError:
             mass = None
     try:
-        results = fragment_checks(lcms, formulas, neutral_mass=mass)
+        results = fragment_checks(lcms, formulas, neutral_mass=mass, mass_tolerance_ppm=mass_tolerance_ppm)
     except NmrcheckError as exc:
         notes.append(f"MS/MS not checked: {exc}")
         return
@@ -529,7 +530,7 @@ def screen_well(spec: WellSpec, directory: str, options: ScreenOptions) -> WellR
             notes.append(f"candidates not checked: {exc}")
         clock.lap("validate")
         if base["lcms"] is not None:
-            _fragment_checks(spec, base["lcms"], candidates, checks, notes)
+            _fragment_checks(spec, base["lcms"], candidates, checks, notes, mass_tolerance_ppm=options.mass_tolerance_ppm)
             clock.lap("msms")
         try:
             amount, recommendation = _quantify(processed, spec, options, found.get("basis"), notes)

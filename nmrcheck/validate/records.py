@@ -6,7 +6,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from nmrcheck.chem.adducts import neutral_mass, parse_ion
-from nmrcheck.chem.candidates import DEFAULT_TOLERANCE_PPM
+from nmrcheck.tolerances import DEFAULT_TOLERANCE_PPM
 from nmrcheck.chem.formula import Formula
 from nmrcheck.errors import ParameterError
 
