@@ -22,7 +22,7 @@ import numpy as np
 from nmrcheck import __version__
 from nmrcheck.errors import InputFileError, NmrcheckError, ParameterError, human_message
 from nmrcheck.plate.manifest import WellSpec, resolve_spectrum
-from nmrcheck.plate.results import SpectrumTrace, WellResult, options_hash
+from nmrcheck.plate.results import Dereplication, KnownMatch, SpectrumTrace, WellResult, options_hash
 from nmrcheck.processing import ProcessingOptions
 from nmrcheck.tolerances import DEFAULT_TOLERANCE_PPM
 
@@ -154,8 +154,11 @@ def _processing_record(processed, options: ProcessingOptions) -> dict[str, Any]:
     }
 
 
-def _candidate_list(spec: WellSpec, options: ScreenOptions, notes: list[str], *, h_low: float | None = None) -> tuple[list[Any], list[dict[str, Any]]]:
-    """(validation candidates, their records): the manifest's formulas and structures, then the HRMS search's.
+def _candidate_list(
+    spec: WellSpec, options: ScreenOptions, notes: list[str], *, h_low: float | None = None
+) -> tuple[list[Any], list[dict[str, Any]], Dereplication | None]:
+    """(validation candidates, their records, the known-compound search): the manifest's formulas and
+    structures, then the library's known compounds at the well's mass, then the HRMS search's.
 
     ``h_low``, the low end of the spectrum's own proton count, bounds the formulas' H from
     below: the count's self-found unit may be a whole fraction of the true one (it prefers
@@ -198,9 +201,8 @@ def _candidate_list(spec: WellSpec, options: ScreenOptions, notes: list[str], *,
             records[-1]["formula"] = objects[-1].formula.hill
             records[-1]["neutral_mass"] = objects[-1].formula.monoisotopic_mass
     if not spec.ms_features:
-        return objects, records
-    if options.library:
-        _known_compounds(spec, options, notes, add, records, objects, candidates_from_strings)
+        return objects, records, None
+    known = _known_compounds(spec, options, add, records, candidates_from_strings) if options.library else None
     try:
         search = formula_search(
             list(spec.ms_features),
@@ -213,7 +215,7 @@ def _candidate_list(spec: WellSpec, options: ScreenOptions, notes: list[str], *,
         )
     except NmrcheckError as exc:
         notes.append(f"formula search: {exc}")
-        return objects, records
+        return objects, records, known
     named = {r["formula"]: r for r in records if r["kind"] == "formula"}
     for cand in search.candidates:
         rec = plain(cand)
@@ -229,11 +231,11 @@ def _candidate_list(spec: WellSpec, options: ScreenOptions, notes: list[str], *,
     notes.extend(f"formula search: {n}" for n in search.notes)
     if not search.candidates:
         notes.append(f"formula search: no formula within {options.mass_tolerance_ppm:g} ppm passes the {options.rules} rules")
-    return objects, records
+    return objects, records, known
 
 
-def _known_compounds(spec: WellSpec, options: ScreenOptions, notes: list[str], add, records, objects, candidates_from_strings) -> None:
-    """Known compounds of the library at the well's mass become structure candidates; the well's note says how many."""
+def _known_compounds(spec: WellSpec, options: ScreenOptions, add, records, candidates_from_strings) -> Dereplication:
+    """Known compounds of the library at the well's mass: the well's record of the search; they become structure candidates."""
     from nmrcheck.ms.library import library_at, library_structures
 
     try:
@@ -241,9 +243,16 @@ def _known_compounds(spec: WellSpec, options: ScreenOptions, notes: list[str], a
             list(spec.ms_features), ppm=options.mass_tolerance_ppm, genus=options.genus, family=options.family
         )
     except NmrcheckError as exc:
-        notes.append(f"known compounds: {exc}")
-        return
-    notes.append(f"known compounds: {lookup.summary}")
+        return Dereplication(count=None, ppm=options.mass_tolerance_ppm, genus=options.genus, family=options.family, error=str(exc))
+    known = Dereplication(
+        count=len(lookup.matches),
+        matches=tuple(
+            KnownMatch(rank=k, name=m.name, formula=m.formula, taxon_match=m.taxon_match, error_ppm=round(m.error_ppm, 3),
+                       inchikey_block=m.inchikey_block, smiles=m.smiles)
+            for k, m in enumerate(lookup.matches, start=1)
+        ),
+        ions=lookup.ions, ppm=lookup.ppm, genus=options.genus, family=options.family,
+    )
     named = {r.get("smiles") for r in records if r["kind"] == "structure"}
     for (label, smiles), match in zip(library_structures(lookup), lookup.matches):
         if smiles in named:
@@ -251,6 +260,7 @@ def _known_compounds(spec: WellSpec, options: ScreenOptions, notes: list[str], a
         add({"kind": "structure", "source": "library", "name": label, "smiles": smiles, "formula": match.formula,
              "neutral_mass": match.monoisotopic_mass, "known": match.as_dict()},
             lambda s=smiles, n=label: candidates_from_strings(smiles=[f"{s} {n}"]) if candidates_from_strings else ((), ()))
+    return known
 
 
 def _check_record(key: str, verdict, evidence) -> dict[str, Any]:
@@ -517,11 +527,11 @@ def screen_well(spec: WellSpec, directory: str, options: ScreenOptions) -> WellR
             trace=trace,
         )
         h_low = processed.count.total_h_low if processed.count is not None else None
-        objects, candidates = _candidate_list(spec, options, notes, h_low=h_low)
+        objects, candidates, known = _candidate_list(spec, options, notes, h_low=h_low)
         clock.lap("formulas")
         if processed.count is None:
             notes.append("no analyte signal above the noise threshold: the well looks empty")
-            return WellResult(status="empty", verdict="empty", candidates=tuple(candidates), timings=clock.timings, notes=tuple(notes), **common, **base)
+            return WellResult(status="empty", verdict="empty", candidates=tuple(candidates), known=known, timings=clock.timings, notes=tuple(notes), **common, **base)
         found: dict[str, Any] = {}
         try:
             checks = _validate(processed, spec, options, objects, candidates, notes, found)
@@ -542,6 +552,7 @@ def screen_well(spec: WellSpec, directory: str, options: ScreenOptions) -> WellR
             status="done",
             verdict=_verdict_of(checks, candidates),
             candidates=tuple(candidates),
+            known=known,
             checks=tuple(checks or ()),
             amount=amount,
             recommendation=recommendation,

@@ -438,8 +438,9 @@ def _well_section(result: WellResult, line: WellLine, index: int, history_len: i
         pairs.append(("Amount", escape(line.amount_detail)))
     if line.next_step:
         pairs.append(("Next step", escape(f"{line.next_step}: {line.next_detail}" if line.next_detail else line.next_step)))
-    if line.known:
-        pairs.append(("Known compounds", escape(line.known)))
+    if line.known or line.known_detail:
+        text = ": ".join(t for t in (line.known, line.known_detail) if t)
+        pairs.append(("Known compounds", escape(text)))
     if line.related:
         pairs.append(("Related wells (MS/MS)", " ".join(f'<a href="#well-{escape(w)}">{escape(w)}</a>' for w in line.related)
                       + (f' <span class="muted">({escape(line.related_note)})</span>' if line.related_note else "")))

@@ -101,7 +101,10 @@ class WellLine:
     reason_detail: str = ""
     """The same reason in full (for the tooltip and the exports)."""
     known: str = ""
-    """'new' (no known compound at this mass), 'known (n candidates)', or '' when not searched."""
+    """'no known compound at this mass', 'known (n candidates)', or '' when not searched."""
+    known_detail: str = ""
+    """The known compounds, best first, with the taxon they match ('noctulide A (genus), ...'), or why the
+    search could not run."""
     activity: AssayReadout | None = None
     related: tuple[str, ...] = ()
     """Wells whose MS/MS spectra group with this one."""
@@ -112,10 +115,7 @@ class WellLine:
 
 def _get(result: WellResult, name: str) -> Any:
     """A result field by name, also one that a newer stage stores and this version does not declare."""
-    value = getattr(result, name, None)
-    if value is None:
-        value = (result.spec or {}).get(name) if name in ("known",) else None
-    return value
+    return getattr(result, name, None)
 
 
 def best_check(result: WellResult) -> Mapping[str, Any] | None:
@@ -177,24 +177,22 @@ def _purity(result: WellResult) -> tuple[str, bool, str]:
     return str(p), "mixture" in str(p).lower(), ""
 
 
-def _known(result: WellResult) -> str:
-    """'known (n candidates)' or 'no known compound at this mass' from the known-compound search, '' when none ran."""
-    for note in result.notes:
-        if str(note).startswith("known compounds: "):
-            text = str(note)[len("known compounds: "):]
-            if text.startswith(("known", "no known")):
-                return text
+def _known(result: WellResult) -> tuple[str, str]:
+    """(summary, detail) of the well's known-compound search (:class:`~nmrcheck.plate.results.Dereplication`);
+    ('', '') when none ran, ('', why) when it could not."""
     k = _get(result, "known")
-    if not k:
-        return ""
-    if isinstance(k, Mapping):
-        if k.get("call"):
-            return str(k["call"])
-        n = k.get("n_candidates", k.get("count"))
-        if n is not None:
-            return "no known compound at this mass" if int(n) == 0 else f"known ({int(n)} candidates)"
-        return ""
-    return str(k)
+    if k is None:
+        return "", ""
+    if k.count is None:
+        return "", k.summary
+    names = [f"{m.name} ({m.taxon_match})" if m.taxon_match != "other" else m.name for m in k.matches[:_KNOWN_NAMES]]
+    more = len(k.matches) - len(names) if k.matches else 0
+    detail = ", ".join(names) + (f" and {more} more" if more > 0 else "")
+    return k.summary, detail
+
+
+_KNOWN_NAMES = 5
+"""Known compounds named in a well's detail; the rest are counted."""
 
 
 def _related(result: WellResult) -> tuple[tuple[str, ...], str]:
@@ -319,7 +317,7 @@ def well_line(result: WellResult, activity: AssayReadout | None = None) -> WellL
     amount, amount_ug, amount_detail = format_amount(result.amount)
     count, count_detail, ambiguous = _count(result, check)
     next_text, next_detail, decision = _next_step(result)
-    known = _known(result)
+    known, known_detail = _known(result)
     related, related_note = _related(result)
     verdict = result.verdict
     concern = ""
@@ -380,6 +378,7 @@ def well_line(result: WellResult, activity: AssayReadout | None = None) -> WellL
         reason=display_units(clean_citation(reason)) if concern in ("unreadable", "error") else _first_clause(display_units(clean_citation(reason))),
         reason_detail=display_units(clean_citation(reason)),
         known=known,
+        known_detail=known_detail,
         activity=activity,
         related=related,
         related_note=related_note,

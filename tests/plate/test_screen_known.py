@@ -45,7 +45,10 @@ def screened(tmp_path_factory):
 def test_known_compounds_join_the_candidates_ranked_by_taxon(screened):
     r = screened["A1"]
     assert r.status == "done", r.error
-    assert "known compounds: known (3 candidates)" in r.notes
+    assert r.known.count == 3 and r.known.summary == "known (3 candidates)"
+    assert [(m.rank, m.name, m.taxon_match) for m in r.known.matches] == [(1, "tertbutylin", "genus"), (2, "propylethylin", "family"), (3, "pentanolin", "other")]
+    assert r.known.ions == ("[M+H]+",) and r.known.genus == "Calyxia"
+    assert not [n for n in r.notes if n.startswith("known compounds")]
     known = [c for c in r.candidates if c["source"] == "library"]
     assert [c["known"]["name"] for c in known] == ["tertbutylin", "propylethylin", "pentanolin"]
     assert [c["known"]["taxon_match"] for c in known] == ["genus", "family", "other"]
@@ -58,5 +61,23 @@ def test_known_compounds_join_the_candidates_ranked_by_taxon(screened):
 
 def test_no_known_compound_at_this_mass(screened):
     r = screened["A2"]
-    assert "known compounds: no known compound at this mass" in r.notes
+    assert r.known.count == 0 and r.known.matches == () and r.known.summary == "no known compound at this mass"
     assert not [c for c in r.candidates if c["source"] == "library"]
+
+
+def test_the_search_record_round_trips_through_the_results_store(screened, tmp_path):
+    from nmrcheck.plate.store import ResultsStore
+
+    with ResultsStore(tmp_path / "out") as store:
+        run_id = store.start_run(manifest="manifest.csv", options={}, software_version="test")
+        for r in screened.values():
+            store.save(run_id, r)
+        back = store.current(with_trace=False)
+    assert back["A1"].known == screened["A1"].known and back["A2"].known == screened["A2"].known
+
+
+def test_a_well_without_ms_feature_or_library_has_no_search_record():
+    from nmrcheck.plate.results import WellResult
+
+    plain = WellResult.from_dict({"well": "A3", "status": "done", "verdict": "undecided", "notes": ["something else"]})
+    assert plain.known is None and plain.notes == ("something else",)

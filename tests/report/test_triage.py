@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import json
+
 from nmrcheck.data import load_table, user_citation
 from nmrcheck.io.assay import AssayReadout
 from nmrcheck.plate.results import WellResult
@@ -88,12 +90,36 @@ def test_related_wells_from_msms_groups():
     assert line.related == ("B4", "C2") and "share fragments" in line.related_note
 
 
-def test_known_compound_search_shown():
-    # As the plate screen notes it (nmrcheck.plate.screen, nmrcheck.ms.library.KnownLookup.summary).
-    r = _result(verdict="consistent", notes=("known compounds: no known compound at this mass",))
-    assert well_line(r).known == "no known compound at this mass"
-    r = _result(verdict="consistent", notes=("known compounds: known (3 candidates)",))
-    assert well_line(r).known == "known (3 candidates)"
+def test_known_compound_search_shown_from_its_record():
+    from nmrcheck.plate.results import Dereplication, KnownMatch
+
+    # As the plate screen records it (nmrcheck.plate.screen from nmrcheck.ms.library.KnownLookup).
+    r = _result(verdict="consistent", known=Dereplication(count=0, ions=("[M+H]+",), ppm=3.0))
+    assert (well_line(r).known, well_line(r).known_detail) == ("no known compound at this mass", "")
+    matches = tuple(KnownMatch(k, f"compound {k}", "C10H12O2", taxon) for k, taxon in enumerate(["genus", "family"] + ["other"] * 5, start=1))
+    line = well_line(_result(verdict="consistent", known=Dereplication(count=7, matches=matches)))
+    assert line.known == "known (7 candidates)"
+    assert line.known_detail == "compound 1 (genus), compound 2 (family), compound 3, compound 4, compound 5 and 2 more"
+    failed = well_line(_result(verdict="consistent", known=Dereplication(count=None, error="index.sqlite: not a known-compound index")))
+    assert failed.known == "" and "not a known-compound index" in failed.known_detail
+    assert well_line(_result(verdict="consistent")).known == ""
+
+
+def test_results_stored_before_the_record_are_read_from_their_note():
+    """A result stored when the search spoke only through its note ('known compounds: ...')."""
+    old = {"well": "A1", "status": "done", "verdict": "consistent",
+           "notes": ["proton count: 12 H", "known compounds: known (2 candidates)"],
+           "candidates": [{"kind": "structure", "source": "library", "name": "eugenol (known; genus syzygium)", "smiles": "COc1cc(CC=C)ccc1O",
+                           "known": {"name": "eugenol", "formula": "C10H12O2", "taxon_match": "genus", "error_ppm": 0.4,
+                                     "inchikey_block": "RRAFCDWBNXTKKO", "smiles": "COc1cc(CC=C)ccc1O"}}]}
+    r = WellResult.from_dict(old)
+    assert r.known.count == 2 and [(m.rank, m.name, m.taxon_match) for m in r.known.matches] == [(1, "eugenol", "genus")]
+    assert r.notes == ("proton count: 12 H",)
+    assert well_line(r).known == "known (2 candidates)"
+    none = WellResult.from_dict({**old, "notes": ["known compounds: no known compound at this mass"], "candidates": []})
+    assert none.known.count == 0 and well_line(none).known == "no known compound at this mass"
+    again = WellResult.from_dict(json.loads(r.to_json()))
+    assert again.known == r.known
 
 
 def test_json_outputs_cite_without_the_contributors_note(tmp_path):
