@@ -13,6 +13,7 @@ real FID; a clean twin written the same way). Per copy:
 * count: the structure.mol H count (RDKit) inside the reported range [low, high] (carbon-bound H
   up to all H, since OH/NH may be broad or missing); an 'ambiguous' count is in range only when
   both offered totals bracket the truth.
+* ambiguous: how many of those counts offer n or 2n protons instead of one figure;
 * reference: the noisy copy's axis within 0.01 ppm of the axis nmrcheck sets on the clean twin,
   or honestly unreferenced (kind 'none').
 * time: nmrcheck's process() per noisy spectrum.
@@ -166,6 +167,7 @@ def main() -> None:
                         row["acme_err"] = float(np.abs(tool.phase_errors(acme.data, instrument, ppm=acme.ppm)[1]).max())
                 if truth is not None:
                     row["count_ok"] = count_in_range(p.count, *truth)
+                    row["ambiguous"] = bool(getattr(p.count, "ambiguous", False))
                     row["truth"] = f"{truth[0]}+{truth[1]}"
                     if p.count is not None:
                         row["count"] = f"{p.count.total_h:.1f} ({p.count.total_h_low:.1f}-{p.count.total_h_high:.1f})"
@@ -179,17 +181,18 @@ def main() -> None:
                     print(json.dumps({k: (round(v, 3) if isinstance(v, float) else v) for k, v in row.items()}), flush=True)
     if args.json:
         Path(args.json).write_text(json.dumps(rows, indent=1))
-    print(f"\n{'SNR':>5s} {'phase<=3':>9s} {'<=5':>7s} {'>20':>5s} {'ACME<=3':>9s} {'count ok':>9s} {'ref ok':>8s} {'s/spectrum':>10s}")
+    print(f"\n{'SNR':>5s} {'phase<=3':>9s} {'<=5':>7s} {'>20':>5s} {'ACME<=3':>9s} {'count ok':>9s} {'ambig.':>7s} {'ref ok':>8s} {'s/spectrum':>10s}")
     for snr in levels:
         sel = [r for r in rows if r["snr"] == snr and "skipped" not in r]
         ph = np.array([r["phase_err"] for r in sel if "phase_err" in r])
         ac = np.array([r["acme_err"] for r in sel if "acme_err" in r])
         cnt = [r["count_ok"] for r in sel if "count_ok" in r]
+        amb = [r["ambiguous"] for r in sel if "ambiguous" in r]
         ref = [r["reference_ok"] for r in sel]
         tm = np.median([r["time_s"] for r in sel]) if sel else float("nan")
         acme_txt = f"{np.sum(ac <= 3)}/{ac.size}" if ac.size else "-"
         print(f"{snr:5g} {np.sum(ph <= 3):>5d}/{ph.size:<3d} {np.sum(ph <= 5):>3d}/{ph.size:<3d} {np.sum(ph > 20):>5d} "
-              f"{acme_txt:>9s} {sum(cnt):>5d}/{len(cnt):<3d} {sum(ref):>4d}/{len(ref):<3d} {tm:10.3f}")
+              f"{acme_txt:>9s} {sum(cnt):>5d}/{len(cnt):<3d} {sum(amb):>3d}/{len(amb):<3d} {sum(ref):>4d}/{len(ref):<3d} {tm:10.3f}")
     skipped = [r for r in rows if "skipped" in r]
     if skipped:
         print(f"({len(skipped)} copies refused by add_noise: target above two thirds of the clean SNR)")

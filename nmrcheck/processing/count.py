@@ -45,12 +45,12 @@ def _misfit(integrals: np.ndarray, unit: float) -> tuple[float, float, np.ndarra
     return float(np.mean(z * z)), minor_share, n
 
 
-def _cost(integrals: np.ndarray, unit: float) -> float:
+def _cost(integrals: np.ndarray, unit: float, parsimony: float = PARSIMONY) -> float:
     """Misfit of region integrals to whole protons at ``unit``, plus the Occam and minor-signal terms."""
     misfit, minor_share, n = _misfit(integrals, unit)
     if not np.isfinite(misfit):
         return np.inf
-    return float(misfit + PARSIMONY * n.sum() / n.size + MINOR_PENALTY * minor_share)
+    return float(misfit + parsimony * n.sum() / n.size + MINOR_PENALTY * minor_share)
 
 
 def _candidate_units(arr: np.ndarray, max_h_per_region: int) -> np.ndarray:
@@ -60,7 +60,8 @@ def _candidate_units(arr: np.ndarray, max_h_per_region: int) -> np.ndarray:
     return np.unique(np.concatenate([cands, [_polish(arr, u) for u in cands]]))
 
 
-def competing_units(integrals: Sequence[float], best_unit: float, *, margin: float = AMBIGUITY_MARGIN) -> list[float]:
+def competing_units(integrals: Sequence[float], best_unit: float, *, margin: float = AMBIGUITY_MARGIN,
+                    detection_limit: float | None = None) -> list[float]:
     """Units giving two or three times (or a half or a third of) the best count at nearly its cost.
 
     Relaxation weighting, overlap and a few missing or extra protons can make the
@@ -69,15 +70,24 @@ def competing_units(integrals: Sequence[float], best_unit: float, *, margin: flo
     integer assignment; those whose cost (misfit, Occam and minor-signal terms,
     :func:`find_unit`) lies within ``margin`` of the best unit's cost are returned,
     fewest protons first. Only the Occam term chose between them and the best.
+
+    The Occam term rests on every signal being seen, and the one-proton signals that
+    would tell n from 2n protons are the first to vanish in the noise. So when the
+    unit of twice the best count lies under ``detection_limit`` (the smallest integral
+    a one-proton multiplet needs to be detected), that count is compared with the
+    best on misfit and minor-signal terms alone.
     """
     arr = np.asarray([x for x in integrals if x > 0], float)
-    best_cost = _cost(arr, best_unit)
     best_total = _misfit(arr, best_unit)[2].sum()
     out: dict[int, float] = {}
     for factor in (3.0, 2.0, 0.5, 1.0 / 3.0):
         u = _polish(arr, best_unit * factor)
         misfit, _, n = _misfit(arr, u)
-        if not np.isfinite(misfit) or _cost(arr, u) > best_cost + margin:
+        if not np.isfinite(misfit):
+            continue
+        hidden = factor == 0.5 and detection_limit is not None and u < detection_limit
+        parsimony = 0.0 if hidden else PARSIMONY
+        if _cost(arr, u, parsimony) > _cost(arr, best_unit, parsimony) + margin:
             continue
         total = int(n.sum())
         if abs(total - best_total) >= 0.25 * best_total:
@@ -145,6 +155,7 @@ def count_protons(
     integral_sigma: Sequence[float] | None = None,
     anchor_h: int | None = None,
     candidate_h_counts: Sequence[int] | None = None,
+    one_proton_detection_limit: float | None = None,
 ) -> tuple[tuple[Region, ...], ProtonCount]:
     """Protons per counted region and in total.
 
@@ -161,6 +172,11 @@ def count_protons(
     candidate_h_counts
         Whole-proton totals the candidate formulas allow (visible H); the unit is then
         chosen among them (:func:`bounded_unit`), not from the integrals alone.
+    one_proton_detection_limit
+        Smallest integral a one-proton multiplet needs to be detected (same units as the
+        integrals). Where twice the count would put one proton under it, one-proton
+        signals may be missing, and that count is offered as an alternative
+        (``ambiguous``) unless the integrals themselves rule it out (:func:`competing_units`).
     """
     counted_idx = [i for i, r in enumerate(regions) if r.counted and r.integral > 0]
     if not counted_idx:
@@ -181,7 +197,7 @@ def count_protons(
     else:
         unit, _ = find_unit(integrals)
         method = "self-consistent"
-        alternatives = competing_units(integrals, unit)
+        alternatives = competing_units(integrals, unit, detection_limit=one_proton_detection_limit)
     out = list(regions)
     hs = integrals / unit
     for i, h in zip(counted_idx, hs):

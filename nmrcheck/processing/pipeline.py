@@ -14,7 +14,7 @@ from nmrcheck.processing.baseline import correct_baseline
 from nmrcheck.processing.count import count_protons
 from nmrcheck.processing.noise import noise_level
 from nmrcheck.processing.phase import apply_phase, auto_phase
-from nmrcheck.processing.reference import reference_axis
+from nmrcheck.processing.reference import half_height_width_hz, reference_axis
 from nmrcheck.processing.regions import find_regions
 from nmrcheck.processing.results import PhaseCorrection, Processed
 from nmrcheck.processing.solvents import AQUEOUS, normalise_solvent
@@ -162,6 +162,33 @@ def phasing_exclusion(spectrum: Spectrum, options: ProcessingOptions | None = No
     return [(lo, hi) for lo, hi, _ in _suppression_ranges(spectrum, options or ProcessingOptions())]
 
 
+#: Lines of the weakest common one-proton signal: a double doublet (common practice: a methine
+#: or an olefinic proton coupled to two others), four lines of a quarter of its area each.
+ONE_PROTON_LINES = 4
+
+
+def one_proton_detection_limit(spectrum: Spectrum, regions, *, noise: float, threshold_snr: float) -> float | None:
+    """Smallest integral with which a one-proton double doublet stands above the detection threshold.
+
+    Its four lines are taken as wide as the tallest counted line at half height
+    (Lorentzian: area = pi/2 x height x width), each holding a quarter of the area;
+    the lines must reach ``threshold_snr`` x ``noise``. None without a counted region.
+    """
+    y = spectrum.data.real
+    best = None
+    for r in regions:
+        if r.counted:
+            sl = spectrum.slice_of(r.start_ppm, r.end_ppm)
+            if sl.stop > sl.start:
+                i = sl.start + int(np.argmax(y[sl]))
+                if best is None or y[i] > y[best]:
+                    best = i
+    if best is None:
+        return None
+    width_ppm = half_height_width_hz(spectrum, best) / spectrum.spectrometer_mhz
+    return ONE_PROTON_LINES * threshold_snr * noise * np.pi / 2.0 * width_ppm
+
+
 def snr_of(spectrum: Spectrum, regions, noise: float) -> float:
     """Signal-to-noise ratio: tallest counted analyte point over twice the noise standard deviation.
 
@@ -253,8 +280,9 @@ def process(source: Fid | SpectrumFile | str | os.PathLike, options: ProcessingO
         for r, sg in zip(regions, sigmas)
     )
     if any(r.counted for r in regions):
+        limit = one_proton_detection_limit(spec, regions, noise=noise, threshold_snr=opts.threshold_snr)
         regions, count = count_protons(regions, integral_sigma=sigmas, anchor_h=opts.anchor_h,
-                                       candidate_h_counts=opts.candidate_h_counts)
+                                       candidate_h_counts=opts.candidate_h_counts, one_proton_detection_limit=limit)
     else:
         warnings.append("no analyte signal above the noise threshold")
     snr = snr_of(spec, regions, noise)

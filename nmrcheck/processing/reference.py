@@ -21,7 +21,8 @@ MULTIPLET_EXTRA_WIDTH_HZ = 8.0
 CLOSE_PPM = 0.03
 
 
-def _half_width_hz(spectrum: Spectrum, i: int) -> float:
+def half_height_width_hz(spectrum: Spectrum, i: int) -> float:
+    """Full width at half height of the line whose top is point ``i``, Hz (searched up to 30 Hz each way)."""
     y = spectrum.data.real
     half = y[i] / 2.0
     lo, hi = i, i
@@ -202,7 +203,7 @@ def find_peak(
             continue
         idx = [sl.start + k for k in range(1, seg.size - 1) if seg[k] >= seg[k - 1] and seg[k] > seg[k + 1] and seg[k] > floor]
         if max_width_hz is not None:
-            idx = [i for i in idx if _half_width_hz(spectrum, i) <= max_width_hz]
+            idx = [i for i in idx if half_height_width_hz(spectrum, i) <= max_width_hz]
         if isolated_hz is not None:
             idx = [i for i in idx if _is_isolated(spectrum, i, isolated_hz)]
         idx = [i for i in idx if not is_carbon_satellite(spectrum, i)]

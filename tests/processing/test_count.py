@@ -45,6 +45,41 @@ def test_competing_units_are_multiples_of_the_best():
         assert min(abs(ratio - k) for k in (1 / 3, 0.5, 2.0, 3.0)) < 0.15
 
 
+def test_twice_the_count_is_offered_when_one_proton_signals_could_hide():
+    """4-allylanisole (C10H12O; 2/2/1/2/3/2 H) with its one-proton vinyl multiplet lost in the noise:
+    the survivors read 2:2:2:3.75:2 (the methyl relaxes faster than the ring protons after a short
+    delay). 1:1:1:2:1 at twice the unit fits as well, and the preference for fewer protons picks
+    6 H. That preference rests on every one-proton signal being seen: when a one-proton multiplet
+    of the smaller unit (1.0 here) would lie under the detection limit, 12 H is offered beside it."""
+    integrals = [2.0, 2.06, 1.92, 3.75, 2.08]
+    _, seen = count_protons(_regions(integrals), one_proton_detection_limit=0.9)
+    assert not seen.ambiguous and seen.integer_h == 6
+    _, hidden = count_protons(_regions(integrals), one_proton_detection_limit=1.5)
+    assert hidden.ambiguous and hidden.integer_h == 6
+    assert min(hidden.alternative_totals) <= 6.5 and max(hidden.alternative_totals) >= 11.5
+    assert hidden.total_h_low <= 6 and hidden.total_h_high >= 12
+
+
+def test_detection_limit_follows_the_noise():
+    """The same spectrum (4-allylanisole's lines, 400 MHz) clean and with the noise of a few
+    micrograms: clean, every one-proton signal stands clear and the count is 12 H outright; in the
+    noise the 1 H vinyl multiplet (a ddt spread over 12 lines) is lost, and the count must still
+    hold 12 H (as an alternative: n or 2n), never a confident 6 H."""
+    lines = [Line(7.10, 2.0, 1.0, (8.6,)), Line(6.83, 2.0, 1.0, (8.6,)), Line(5.95, 1.0, 1.0, (16.9, 10.1, 6.7, 6.7)),
+             Line(5.06, 2.0, 1.0, (13.5,)), Line(3.78, 3.0, 1.0), Line(3.32, 2.0, 1.0, (6.7,))]
+    # Shifts and couplings of 4-allylanisole in CDCl3 (SDBS-like literature values, from memory).
+    clean = process(simulate_fid(lines, spectrometer_mhz=400.0, sweep_width_hz=4800.0, points=16384, noise=0.0, seed=3))
+    assert clean.count.integer_h == 12 and not clean.count.ambiguous
+    height = max(clean.spectrum.data.real)
+    # Noise for a tallest line of about 60 sigma (SNR 30 as height over twice the noise).
+    sigma_spectrum = height / 60.0
+    probe = process(simulate_fid(lines, spectrometer_mhz=400.0, sweep_width_hz=4800.0, points=16384, noise=1.0, seed=3))
+    scale = sigma_spectrum / probe.noise
+    noisy = process(simulate_fid(lines, spectrometer_mhz=400.0, sweep_width_hz=4800.0, points=16384, noise=scale, seed=3))
+    c = noisy.count
+    assert c.ambiguous and c.total_h_low <= 12 <= c.total_h_high
+
+
 def test_candidate_formulas_bound_the_unit():
     """The relaxation-weighted integrals above, bounded by candidate formulas: with 12 H allowed
     (4-allylanisole, C10H12O) the unit is the 12 H one, not the 6 H one the integrals alone prefer."""
