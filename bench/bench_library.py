@@ -31,6 +31,7 @@ from pathlib import Path
 import numpy as np
 
 from nmrcheck.chem import ion_mz, parse_formula
+import nmrcheck.ms.library as library_module
 from nmrcheck.ms.library import KnownCompoundLibrary, index_library
 
 GENERA = [f"Genus{k}" for k in range(400)]
@@ -61,12 +62,17 @@ def _formula_library(path: Path, n: int, rng) -> np.ndarray:
     return masses
 
 
-def _smiles_library(path: Path, n: int, rng) -> list[str]:
+def _smiles_library(path: Path, n: int, rng, repeats: float = 0.0) -> list[str]:
     smiles_all = []
     with open(path, "w", newline="") as fh:
         w = csv.writer(fh)
         w.writerow(["name", "smiles", "genus", "family"])
         for i in range(n):
+            if repeats and smiles_all and rng.random() < repeats:
+                # the same compound reported from another organism
+                smiles_all.append(smiles_all[int(rng.integers(0, len(smiles_all)))])
+                w.writerow([f"compound {i}", smiles_all[-1], GENERA[i % len(GENERA)], FAMILIES[i % len(FAMILIES)]])
+                continue
             smiles = "".join(rng.choice(FRAGMENTS, size=int(rng.integers(4, 16))))
             if rng.random() < 0.05:
                 smiles = "[NH3+]" + smiles
@@ -137,20 +143,24 @@ def sizes(sizes: list[int], lookups: int) -> None:
             print(f"{n:>8} {info.seconds:>8.1f} {look:>11.3f} {statistics.fmean(found):>8.1f} | {peer:>12.3f} {peer / look:>12.1f}")
 
 
-def structures(n: int, peer_entries: int, worker_counts: list[int]) -> None:
+def structures(n: int, peer_entries: int, worker_counts: list[int], repeats: float) -> None:
     import sqlite3
 
     print()
-    print(f"structure path: {n} entries with SMILES only (RDKit formula and InChIKey for each)")
+    print(f"structure path: {n} entries with SMILES only (RDKit formula and InChIKey for each; "
+          f"{repeats:.0%} of rows repeat an earlier structure)")
     rng = np.random.default_rng(12)
     with tempfile.TemporaryDirectory() as tmp:
         src = Path(tmp) / "smiles.csv"
-        smiles_all = _smiles_library(src, n, rng)
+        smiles_all = _smiles_library(src, n, rng, repeats)
         peer, peer_s = _peer_structures(smiles_all[:peer_entries])
         peer_us = 1e6 * peer_s / min(n, peer_entries)
         print(f"  peer (plain loop, 1 process) on {min(n, peer_entries)} entries: {peer_us:.0f} us per entry, "
               f"500,000 entries in about {500_000 * peer_us / 1e6:.0f} s")
         for workers in worker_counts:
+            # each run starts cold: worker processes are forked and would inherit what an earlier run cached
+            library_module.structure_formula_and_key.cache_clear()
+            library_module._formula_and_charge.cache_clear()
             info = index_library(src, Path(tmp) / f"s{workers}.sqlite", workers=workers)
             us = 1e6 * info.seconds / n
             con = sqlite3.connect(info.database)
@@ -171,10 +181,12 @@ def main(argv=None) -> int:
     parser.add_argument("--structures", type=int, default=20_000, help="entries of the SMILES-only library (0: skip)")
     parser.add_argument("--peer-entries", type=int, default=20_000, help="rows the structure path's peer loop runs on")
     parser.add_argument("--workers", type=int, nargs="+", default=[1, 2], help="worker processes of the structure path's runs")
+    parser.add_argument("--repeats", type=float, default=0.0,
+                        help="share of SMILES-only rows that repeat an earlier structure (an export with one row per compound and organism)")
     args = parser.parse_args(argv)
     sizes(args.sizes, args.lookups)
     if args.structures:
-        structures(args.structures, args.peer_entries, args.workers)
+        structures(args.structures, args.peer_entries, args.workers, args.repeats)
     return 0
 
 

@@ -209,13 +209,15 @@ def _structure_tools():
     return _rdkit
 
 
+@lru_cache(maxsize=1 << 17)
 def structure_formula_and_key(smiles: str) -> tuple[str, str | None] | None:
     """(RDKit formula text, first InChIKey block) of a SMILES; ``None`` when it cannot be read.
 
     The InChI is made without its stereo layer (``-SNon``): the first key block hashes the
     main layer only (formula, connections, hydrogens), which InChI canonicalises before and
     independently of stereochemistry, so the block is the standard InChIKey's first block
-    and the stereo perception is not paid for.
+    and the stereo perception is not paid for. Cached by SMILES text: an export with one row per
+    compound and organism repeats a structure as often as it was reported.
     """
     Chem, rdinchi, formula_of, ops = _structure_tools()
     mol = Chem.MolFromSmiles(smiles, sanitize=False)
