@@ -5,14 +5,24 @@ as [M+H]+ and [M+Na]+, say), optionally with the isotope intensities of the firs
 neutral formulas whose ions fall within the mass tolerance of every m/z are enumerated
 exhaustively, filtered by the chosen chemical rules, scored and ranked.
 
-Score (a log-likelihood, 0 at best, higher is better) = mass part + isotope part:
+Score (a log-likelihood plus log prior, 0 at best, higher is better) = mass part + isotope
+part + prior part (+ proton part with a proton bound):
 
-* mass: ``-0.5 * z' R^-1 z`` with ``z_i = error_i / sigma_i`` over the observed ions, the
-  tolerance taken as two standard deviations (``sigma_i = tolerance_i / 2``), and ``R`` the
-  correlation of the ions' errors: 1 on the diagonal, ``mass_error_correlation`` (default
-  0.5, a shared calibration error) elsewhere; for one ion, ``-0.5 * (error / sigma)**2``;
+* mass: ``-0.5 * zbar**4``, ``zbar`` the mean over the observed ions of error / tolerance
+  (weighted as the neutral mass is). The tolerance is the accuracy the instrument is stated
+  to hold, not a standard deviation: every error within it is about equally likely (a
+  flat-topped exponential-power distribution of shape 2 with the tolerance as its scale,
+  0.61 of its peak at the tolerance), so a formula 0.5 ppm off is not preferred to one 2.5
+  ppm off on the mass alone. The ions of one feature share the spectrum's calibration
+  error, so their mean is bounded by the tolerance like each one;
 * isotopes: ``-0.5 * chi2`` of the observed pattern against the predicted one
-  (:mod:`nmrcheck.chem.isotopes` states the error model).
+  (:mod:`nmrcheck.chem.isotopes` states the error model);
+* prior ('natural_products'): log prior probability that a natural product contains each
+  heteroatom the formula has (``element_priors.csv``), plus the element ratios to carbon
+  of golden rules 4 and 5 (Kind & Fiehn 2007, Table 2), whose 'common' range holds 99.7 %
+  of the library formulas: read as mean +- 3 standard deviations of a normal distribution
+  (H/C, range 0.2-3.1) or, for ranges from 0, as 3 standard deviations of a half-normal one
+  (N/C, O/C, S/C, ...), each ratio adds its log density ``-0.5 * ((ratio - mean) / sd)**2``.
 
 Each candidate's ``score_parts`` says what each part contributed.
 """
@@ -53,9 +63,10 @@ from nmrcheck.chem.rules import (
     RULE_NAMES,
     element_count_limits,
     evaluate_rules,
-    rule_mask,
     pruning_for,
+    ratio_limits,
     ratio_range_of,
+    rule_mask,
     rules_of_preset,
 )
 from nmrcheck.data import load_table
@@ -79,19 +90,15 @@ MAX_PPM = 50.0
 """Largest ppm tolerance accepted: beyond it the data are not high-resolution."""
 MAX_MDA = 50.0
 """Largest absolute tolerance accepted, mDa."""
-MASS_ERROR_CORRELATION = 0.5
-"""Default correlation between the mass errors of the ions of one feature: ions recorded in
-the same spectrum share its calibration error; taken as half of each ion's error variance
-(an assumption, common practice)."""
+MASS_ERROR_SHAPE = 2.0
+"""Shape of the exponential-power distribution of the mass error: log density
+``-0.5 * |error / tolerance| ** (2 * shape)``; 1 would be a normal distribution with the
+tolerance as its standard deviation, 2 is flat across most of the tolerance."""
 
 
-def _mass_log_likelihood(standard: np.ndarray, rho: float) -> np.ndarray:
-    """-0.5 z' R^-1 z per candidate: z the ion errors over tolerance/2 (rows: ions), R with
-    1 on the diagonal and ``rho`` elsewhere."""
-    n = standard.shape[0]
-    corr = np.full((n, n), rho) + (1.0 - rho) * np.eye(n)
-    inverse = np.linalg.inv(corr)
-    return -0.5 * np.einsum("ik,ij,jk->k", standard, inverse, standard)
+def _mass_log_likelihood(relative: np.ndarray) -> np.ndarray:
+    """Mass part per candidate from its mean error over the tolerance (see the module docstring)."""
+    return -0.5 * np.abs(relative) ** (2.0 * MASS_ERROR_SHAPE)
 
 
 @dataclass(frozen=True)
@@ -329,7 +336,6 @@ def formula_search(
     h_range: tuple[float, float] | None = None,
     isotope_relative_error: float = RELATIVE_ERROR,
     isotope_absolute_error: float = ABSOLUTE_ERROR,
-    mass_error_correlation: float = MASS_ERROR_CORRELATION,
 ) -> FormulaSearch:
     """Enumerate, filter, score and rank neutral formulas for one MS feature.
 
@@ -357,8 +363,9 @@ def formula_search(
     max_candidates : int
         Candidates returned at most.
     prior : {'natural_products', None}
-        Add the log prior probability that a natural product contains each heteroatom the
-        formula has (``element_priors.csv``) as the score part 'prior'; None: no prior.
+        Add the log prior of the formula for a natural product as the score part 'prior':
+        that it contains each heteroatom it has (``element_priors.csv``), and its element
+        ratios to carbon (golden rules 4 and 5; see the module docstring); None: no prior.
     h_range : (float, float or None), optional
         Protons the 1H spectrum shows (the proton count's range; high None: at least low). A formula with H
         hydrogens, E of which could be exchangeable (one per O and S, two per N), can show
@@ -367,9 +374,6 @@ def formula_search(
         'protons' (every number of hidden exchangeable H taken as equally likely).
     isotope_relative_error, isotope_absolute_error : float
         Isotope error model (see :mod:`nmrcheck.chem.isotopes`).
-    mass_error_correlation : float
-        Correlation, 0 to <1, between the mass errors of the ions of one feature (see the
-        module docstring).
 
     Raises
     ------
@@ -384,7 +388,7 @@ def formula_search(
     intrinsic = [s for _, s in parsed if s.intrinsic]
     if not intrinsic:
         return _search(parsed, ppm, mda, isotopes, elements, rules, max_candidates, prior, h_bounds, h_range, 0,
-                       isotope_relative_error, isotope_absolute_error, mass_error_correlation)
+                       isotope_relative_error, isotope_absolute_error)
     if len(parsed) > 1:
         raise ParameterError(
             f"features: {intrinsic[0].notation} (a permanently charged molecule) cannot be combined with other ions in one feature"
@@ -395,7 +399,7 @@ def formula_search(
     # for M, then report X (and likewise X - H for an anion).
     stand_in = parse_ion({1: "[M+H]+", 2: "[M+2H]2+", 3: "[M+3H]3+", -1: "[M-H]-", -2: "[M-2H]2-", -3: "[M-3H]3-"}[z])
     inner = _search([(mz, stand_in)], ppm, mda, isotopes, elements, rules, max_candidates, prior, h_bounds, h_range, z,
-                    isotope_relative_error, isotope_absolute_error, mass_error_correlation)
+                    isotope_relative_error, isotope_absolute_error)
     shift = Formula({"H": abs(z)})
     h_mass = shift.monoisotopic_mass * (1 if z > 0 else -1)
     candidates = []
@@ -449,13 +453,11 @@ def _proton_part(table: FormulaTable, bounds: tuple[int, int], h_offset: int) ->
 
 
 def _search(parsed, ppm, mda, isotopes, elements, rules, max_candidates, prior, h_bounds, h_range, h_offset,
-            isotope_relative_error, isotope_absolute_error, mass_error_correlation) -> FormulaSearch:
+            isotope_relative_error, isotope_absolute_error) -> FormulaSearch:
     ppm, mda = _check_tolerances(ppm, mda)
     rules_of_preset(rules)
     if prior is not None and prior not in PRIORS:
         raise ParameterError(f"prior: unknown {prior!r}; choose one of {', '.join(PRIORS)} or None")
-    if not isinstance(mass_error_correlation, (int, float)) or not 0 <= mass_error_correlation < 1:
-        raise ParameterError(f"mass_error_correlation: must be in [0, 1), got {mass_error_correlation!r}")
     if not isinstance(max_candidates, int) or isinstance(max_candidates, bool) or max_candidates < 1:
         raise ParameterError(f"max_candidates: a whole number >= 1, got {max_candidates!r}")
     observed = parse_intensities(isotopes) if isotopes is not None else None
@@ -519,16 +521,16 @@ def _search(parsed, ppm, mda, isotopes, elements, rules, max_candidates, prior, 
     n_passed = len(table)
 
     masses = table.masses
-    errors_ppm, errors_da, mz_calc, standard = [], [], [], []
+    errors_ppm, errors_da, mz_calc, relative = [], [], [], []
     for (mz, species), tol in zip(parsed, tolerances):
         calc = (species.molecules * masses + species.mass_shift) / abs(species.charge)
         err_da = mz - calc
         mz_calc.append(calc)
         errors_da.append(err_da)
         errors_ppm.append(err_da / calc * 1e6)
-        standard.append(err_da / (tol / 2.0))
-    mass_part = _mass_log_likelihood(np.array(standard).reshape(len(parsed), len(table)), mass_error_correlation)
+        relative.append(err_da / tol)
     w_ion = weights / weights.sum()
+    mass_part = _mass_log_likelihood(sum(w * r for w, r in zip(w_ion, relative)) if len(table) else np.zeros(0))
     mean_ppm = sum(w * e for w, e in zip(w_ion, errors_ppm)) if len(table) else np.zeros(0)
 
     prior_part = _prior_part(table, prior)
@@ -690,6 +692,30 @@ def _prior_part(table: FormulaTable, prior: str | None) -> np.ndarray | None:
         part += np.where(present, math.log(p), math.log1p(-p))
     # Only differences between candidates matter; anchor an all-absent formula at 0.
     part -= sum(math.log1p(-p) for p in _element_priors(prior).values())
+    return part + _ratio_prior(table)
+
+
+_EDGE_SD = 3.0
+"""The golden rules' 'common' ratio ranges hold 99.7 % of the library formulas: 3 standard deviations."""
+
+
+def _ratio_prior(table: FormulaTable) -> np.ndarray:
+    """Log density of each element ratio to carbon (see the module docstring); a formula without
+    carbon is taken as at the range's edge for each element it has."""
+    carbon = table.column("C").astype(np.float64)
+    has_carbon = carbon > 0
+    part = np.zeros(len(table))
+    for symbol, (low, high) in ratio_limits("common").items():
+        if symbol not in table.elements:
+            continue
+        count = table.column(symbol)
+        if low > 0:
+            mean, sd = (low + high) / 2.0, (high - low) / (2.0 * _EDGE_SD)
+        else:
+            mean, sd = 0.0, high / _EDGE_SD
+        ratio = np.divide(count, carbon, out=np.zeros(len(table)), where=has_carbon)
+        edge = -0.5 * _EDGE_SD**2 if low > 0 else np.where(count > 0, -0.5 * _EDGE_SD**2, 0.0)
+        part += np.where(has_carbon, -0.5 * ((ratio - mean) / sd) ** 2, edge)
     return part
 
 
