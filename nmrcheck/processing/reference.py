@@ -47,6 +47,50 @@ def _is_isolated(spectrum: Spectrum, i: int, distance_hz: float) -> bool:
     return not np.any(y[others] > max(0.25 * y[i], 5.0 * noise_level(y)))
 
 
+#: Couplings between lines of one analyte multiplet that a residual singlet is told from, Hz
+#: (3J(H,H) and 4J(H,H) of common practice: about 1-18 Hz).
+MULTIPLET_SPACING_HZ = (1.0, 18.0)
+
+
+def is_multiplet_line(spectrum: Spectrum, i: int, *, ratio: float = 0.25) -> bool:
+    """True when line ``i`` is the centre or an outer line of an evenly spaced multiplet.
+
+    The centre of a multiplet has partners at the same distance either side, of about
+    equal height to each other; an outer line has partners at d and 2d on one side, the
+    one at d at least about as tall as itself.
+    Partners are local maxima above ``ratio`` of line ``i`` (and clear of the noise),
+    1-18 Hz away, positions agreeing within 15 % (at least a point or 0.4 Hz). A residual singlet
+    that happens to sit among an analyte's lines shows neither pattern unless it
+    coincides with one; then its line cannot be told from the analyte's anyway.
+    """
+    y = spectrum.data.real
+    hz = spectrum.hz_per_point
+    lo_hz, hi_hz = MULTIPLET_SPACING_HZ
+    reach = int(round(2 * hi_hz / hz)) + 2
+    a, b = max(1, i - reach), min(y.size - 1, i + reach + 1)
+    seg = y[a - 1 : b + 1]
+    peaks = np.flatnonzero((seg[1:-1] >= seg[:-2]) & (seg[1:-1] > seg[2:])) + a
+    floor = max(ratio * y[i], 5.0 * noise_level(y))
+    peaks = peaks[(y[peaks] > floor) & (np.abs(peaks - i) * hz >= lo_hz)]
+    if peaks.size < 2:
+        return False
+    d = (peaks - i) * hz
+    for k, dk in enumerate(d):
+        if abs(dk) > hi_hz:
+            continue
+        # Small further couplings split lines by a hertz or so: positions agree within 15 %.
+        tol = max(hz, 0.4, 0.15 * abs(dk))
+        # Centre: a partner at -dk of similar height.
+        mirror = np.flatnonzero(np.abs(d + dk) <= tol)
+        if any(0.5 <= y[peaks[m]] / y[peaks[k]] <= 2.0 for m in mirror):
+            return True
+        # Outer line: the next line inward (at dk) no lower than this one, as in any binomial
+        # pattern, and another at 2*dk on the same side.
+        if y[peaks[k]] >= 0.8 * y[i] and np.any(np.abs(d - 2 * dk) <= tol):
+            return True
+    return False
+
+
 def _vertex(spectrum: Spectrum, i: int) -> float:
     frac = 0.0
     if 0 < i < spectrum.size - 1:
@@ -176,6 +220,7 @@ def find_peak(
     pattern: str = "s",
     unique: bool = False,
     far: bool = False,
+    not_in_multiplet: bool = False,
 ) -> float | None:
     """Shift of the reference line near ``centre_ppm``, or None.
 
@@ -193,6 +238,8 @@ def find_peak(
     candidate gives None (the choice between them would be a guess). With ``far``
     (a search tenths of a ppm from the table value, where position says little) a
     singlet must show its 13C satellites and a quintet must be resolved and symmetric.
+    With ``not_in_multiplet`` a candidate that is the centre or an outer line of an evenly
+    spaced multiplet (:func:`is_multiplet_line`) is not taken.
     """
     y = spectrum.data.real
     floor = min_snr * noise_level(y)
@@ -207,6 +254,8 @@ def find_peak(
         if isolated_hz is not None:
             idx = [i for i in idx if _is_isolated(spectrum, i, isolated_hz)]
         idx = [i for i in idx if not is_carbon_satellite(spectrum, i)]
+        if not_in_multiplet:
+            idx = [i for i in idx if not is_multiplet_line(spectrum, i)]
         if pattern == "quint":
             idx = [i for i in idx if looks_like_quintet(spectrum, i, resolved_only=far)]
         elif far:
@@ -282,7 +331,9 @@ def reference_axis(
                                # Tenths of a ppm from its table value a singlet is the residual only
                                # when its 13C satellites say it is a C-H line of that size, and a
                                # CHD2 residual only when its quintet is resolved.
-                               far=window > CLOSE_PPM)
+                               far=window > CLOSE_PPM,
+                               # Beside analyte lines, a line of an analyte multiplet is not the residual.
+                               not_in_multiplet=singlet and not isolated)
                 if at is not None:
                     if singlet and not isolated:
                         label += " (beside analyte lines)"

@@ -148,6 +148,22 @@ def test_broad_line_far_from_the_table_is_not_an_unresolved_quintet():
     assert ref.line == "acetone-d5" and ref.found_ppm == pytest.approx(1.85, abs=0.005)
 
 
+def test_a_line_of_an_analyte_triplet_is_not_taken_for_chcl3():
+    """CHCl3's residual is a singlet at 7.26 ppm (Gottlieb 1997, from memory). An aromatic
+    triplet (J 7.5 Hz, common practice for a ring proton between two neighbours) centred at
+    7.275 ppm, with no CHCl3 at all: neither its centre nor its outer line 0.02 ppm from 7.26
+    may set the axis. With a real CHCl3 singlet at 7.255 ppm beside the same triplet, the
+    singlet is taken."""
+    from nmrcheck.processing.reference import reference_axis
+    from nmrcheck.synth import Line
+
+    triplet = [Line(7.275, 1.0, 0.8, (7.5, 7.5)), Line(7.45, 1.0, 0.8, (7.5,)), Line(2.35, 3.0, 0.8)]
+    _, ref = reference_axis(_spectrum_with(triplet, solvent="CDCl3", mhz=300.0))
+    assert ref.kind == "none"
+    _, ref = reference_axis(_spectrum_with(triplet + [Line(7.255, 0.3, 0.6)], solvent="CDCl3", mhz=300.0))
+    assert ref.line == "CHCl3" and ref.found_ppm == pytest.approx(7.255, abs=0.003)
+
+
 def test_carbon_satellite_of_dss_is_never_taken_for_dss():
     """DSS's methyl 13C satellites sit at +-59 Hz (1J(C,H) about 118 Hz; common practice) with 0.55 %
     each: with the spectrometer's axis 0.09 ppm off at 600 MHz, the satellite lies nearer to 0 ppm
