@@ -514,8 +514,11 @@ def _search(parsed, ppm, mda, isotopes, elements, rules, max_candidates, prior, 
         notes.append(
             f"proton bound: {shown} H seen in the 1H spectrum, plus up to one exchangeable H per O and S and two per N"
         )
+    # Column-major counts from here on: rules, prior and protons read whole columns.
+    table = FormulaTable(table.elements, np.asfortranarray(table.counts), table.masses)
     passing = rule_mask(table, rules_of_preset(rules), ratio_range=ratio_range_of(rules))
     table = table.take(passing)
+    table = FormulaTable(table.elements, np.asfortranarray(table.counts), table.masses)
     if proton_part is not None:
         proton_part = proton_part[passing]
     n_passed = len(table)
@@ -554,7 +557,10 @@ def _search(parsed, ppm, mda, isotopes, elements, rules, max_candidates, prior, 
     # least the max_candidates-th best score can be shown: sort those.
     shown = np.arange(len(table))
     if len(table) > max_candidates:
-        kth = np.partition(score, len(table) - max_candidates)[len(table) - max_candidates]
+        # Rows whose isotope pattern was not computed score -inf; the rest decide the threshold.
+        finite = score[np.isfinite(score)]
+        pool = finite if finite.size >= max_candidates else score
+        kth = np.partition(pool, pool.size - max_candidates)[pool.size - max_candidates]
         shown = np.flatnonzero(score >= kth)
     order = shown[np.lexsort((masses[shown], np.abs(mean_ppm[shown]), -score[shown]))][:max_candidates]
     # Every rule is reported for the candidates shown, whether the preset filters on it or not.
@@ -683,15 +689,14 @@ def _element_priors(name: str) -> dict[str, float]:
 
 
 def _prior_part(table: FormulaTable, prior: str | None) -> np.ndarray | None:
-    """Log prior of each row: sum over tabled elements of log p (present) or log(1-p) (absent)."""
+    """Log prior of each row: over the tabled elements, log p (present) or log(1-p) (absent),
+    less the same for a formula with none of them; plus the element ratios' log densities."""
     if prior is None:
         return None
     part = np.zeros(len(table))
     for symbol, p in _element_priors(prior).items():
-        present = table.column(symbol) > 0
-        part += np.where(present, math.log(p), math.log1p(-p))
-    # Only differences between candidates matter; anchor an all-absent formula at 0.
-    part -= sum(math.log1p(-p) for p in _element_priors(prior).values())
+        if symbol in table.elements:
+            part += (table.column(symbol) > 0) * (math.log(p) - math.log1p(-p))
     return part + _ratio_prior(table)
 
 
@@ -702,20 +707,29 @@ _EDGE_SD = 3.0
 def _ratio_prior(table: FormulaTable) -> np.ndarray:
     """Log density of each element ratio to carbon (see the module docstring); a formula without
     carbon is taken as at the range's edge for each element it has."""
-    carbon = table.column("C").astype(np.float64)
+    n = len(table)
+    carbon = table.column("C")
     has_carbon = carbon > 0
-    part = np.zeros(len(table))
+    inverse = np.divide(1.0, carbon, out=np.zeros(n), where=has_carbon)
+    part = np.zeros(n)
+    edge = np.zeros(n)  # for the rows without carbon
     for symbol, (low, high) in ratio_limits("common").items():
         if symbol not in table.elements:
             continue
         count = table.column(symbol)
         if low > 0:
             mean, sd = (low + high) / 2.0, (high - low) / (2.0 * _EDGE_SD)
+            edge -= 0.5 * _EDGE_SD**2
         else:
             mean, sd = 0.0, high / _EDGE_SD
-        ratio = np.divide(count, carbon, out=np.zeros(len(table)), where=has_carbon)
-        edge = -0.5 * _EDGE_SD**2 if low > 0 else np.where(count > 0, -0.5 * _EDGE_SD**2, 0.0)
-        part += np.where(has_carbon, -0.5 * ((ratio - mean) / sd) ** 2, edge)
+            edge -= 0.5 * _EDGE_SD**2 * (count > 0)
+        z = count * inverse
+        if mean:
+            z -= mean
+        z *= 1.0 / sd
+        part -= 0.5 * z * z
+    if not has_carbon.all():
+        part = np.where(has_carbon, part, edge)
     return part
 
 

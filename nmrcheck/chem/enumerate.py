@@ -297,7 +297,7 @@ def _prune(counts, symbols, bounds_rest, pruning: Pruning, cap: float) -> np.nda
         if pruning.hydrogen_carbon_min is not None and "H" in symbols:
             keep &= counts[:, symbols.index("H")] >= pruning.hydrogen_carbon_min * c - 1e-9
     for group_more_than, group_limits in pruning.probability_groups:
-        if not all(s in symbols for s in group_limits):
+        if not all(s in symbols for s, _ in group_limits):
             continue
         applies = np.ones(counts.shape[0], dtype=bool)
         within = np.ones(counts.shape[0], dtype=bool)
@@ -417,7 +417,7 @@ def _group_of_sorted(columns, counts, bounds, parity_start, cap, indexed, prunin
     return _Group(tuple(columns), counts, masses, tuple(parity_start), weights, bins, lightest, least)
 
 
-_TABLE_FORMAT = "2"
+_TABLE_FORMAT = "3"
 _SAVE_AFTER_S = 0.1  # tables that build faster than this are not worth a file
 
 
@@ -553,6 +553,56 @@ def _build_groups(bounds, pruning: Pruning, cap: float) -> tuple[_Group, _Group]
 _H_STEP = 8
 
 
+@lru_cache(maxsize=8)
+def _probability_caps(a: _Group, b: _Group, symbols: tuple[str, ...], groups):
+    """Element-probability groups (golden rule 6) turned into per-searched-row caps on one
+    tabulated element, where that is exact.
+
+    A group with its elements on both sides, exactly one of them X in the tabulated group,
+    allows for a searched row whose own elements do not all exceed the group's threshold any
+    X; whose elements all exceed it and stay below their limits, X up to the larger of the
+    threshold and its limit - 1; and otherwise X up to the threshold. A group wholly inside
+    one group was applied when that group's table was built.
+
+    Returns
+    -------
+    caps : tuple of (numpy.ndarray, numpy.ndarray)
+        Per capped element: its counts in the tabulated rows, and the cap per searched row.
+    rest : tuple
+        Groups left for the pair filter (more than one element on the tabulated side).
+    """
+    a_symbols = [symbols[i] for i in a.columns]
+    b_symbols = [symbols[i] for i in b.columns]
+    caps: dict[str, np.ndarray] = {}
+    rest = []
+    for more_than, limits in groups:
+        if not all(x in symbols for x, _ in limits):
+            continue  # an absent element is never "more than" anything
+        on_a = [(x, below) for x, below in limits if x in a_symbols]
+        on_b = [(x, below) for x, below in limits if x in b_symbols]
+        if not on_a or not on_b:
+            continue
+        if len(on_a) > 1:
+            rest.append((more_than, limits))
+            continue
+        (x, below_x), = on_a
+        applies = np.ones(b.masses.size, dtype=bool)
+        within = np.ones(b.masses.size, dtype=bool)
+        for y, below in on_b:
+            count = b.counts[:, b_symbols.index(y)]
+            applies &= count > more_than
+            within &= count < below
+        cap = np.where(~applies, MAX_COUNT, np.where(within, max(more_than, below_x - 1), more_than)).astype(np.int32)
+        caps[x] = np.minimum(caps[x], cap) if x in caps else cap
+    out = []
+    for x, cap in caps.items():
+        column = np.ascontiguousarray(a.counts[:, a_symbols.index(x)])
+        for array in (column, cap):
+            array.setflags(write=False)
+        out.append((column, cap))
+    return tuple(out), tuple(rest)
+
+
 # Up to about 18 MB each (two int32 arrays over the tabulated group).
 @lru_cache(maxsize=4)
 def _rows_with_h(a: _Group, h_column: int, fewest: int) -> tuple[np.ndarray, np.ndarray]:
@@ -585,6 +635,7 @@ def _search(low, high, bounds, pruning: Pruning, cap: float) -> FormulaTable:
         step = fewest // _H_STEP * _H_STEP
         if step > 0:
             with_h = _rows_with_h(a, symbols.index("H"), step)
+    caps, groups_left = _probability_caps(a, b, symbols, pruning.probability_groups)
     pieces_a, pieces_b = [], []
     for b_parity in (0, 1):
         b_start, b_stop = b.parity_start[b_parity], b.parity_start[b_parity + 1]
@@ -642,6 +693,8 @@ def _search(low, high, bounds, pruning: Pruning, cap: float) -> FormulaTable:
                 keep = (total >= low_key) & (total <= high_key)
                 if pruning.rdbe_nonnegative:
                     keep &= a.weights[ia] + b.weights[ib] >= -2
+                for a_count, cap in caps:
+                    keep &= a_count[ia] <= cap[ib]
                 pieces_a.append(ia[keep])
                 pieces_b.append(ib[keep])
     if not pieces_a:
@@ -649,7 +702,7 @@ def _search(low, high, bounds, pruning: Pruning, cap: float) -> FormulaTable:
     ia = np.concatenate(pieces_a)
     ib = np.concatenate(pieces_b)
     # Filters that need the whole composition, on the index pairs before the rows are built.
-    keep = _pair_filter(ia, ib, a, b, symbols, pruning)
+    keep = _pair_filter(ia, ib, a, b, symbols, pruning, groups_left)
     if keep is not None:
         ia, ib = ia[keep], ib[keep]
     counts = np.zeros((ia.size, len(symbols)), dtype=np.int32)
@@ -661,9 +714,9 @@ def _search(low, high, bounds, pruning: Pruning, cap: float) -> FormulaTable:
     return FormulaTable(symbols, counts[inside], masses[inside])
 
 
-def _pair_filter(ia, ib, a: _Group, b: _Group, symbols, pruning: Pruning) -> np.ndarray | None:
+def _pair_filter(ia, ib, a: _Group, b: _Group, symbols, pruning: Pruning, groups) -> np.ndarray | None:
     """Mask of the (first-group row, second-group row) pairs that pass the whole-composition
-    constraints of ``pruning`` (element-probability groups, proton bound); None: all."""
+    constraints of ``pruning`` (the element-probability groups ``groups``, proton bound); None: all."""
 
     gathered: dict[str, np.ndarray | None] = {}
 
@@ -679,8 +732,8 @@ def _pair_filter(ia, ib, a: _Group, b: _Group, symbols, pruning: Pruning) -> np.
                     gathered[symbol] = b.counts[:, b.columns.index(j)][ib].astype(np.int32)
         return gathered[symbol]
 
-    keep = None  # RDBE >= 0 is applied while the pairs are found
-    for group_more_than, group_limits in pruning.probability_groups:
+    keep = None  # RDBE >= 0 and the capped groups are applied while the pairs are found
+    for group_more_than, group_limits in groups:
         cols = [column(s) for s, _ in group_limits]
         if any(c is None for c in cols):
             continue
