@@ -8,7 +8,7 @@ import molmass
 import numpy as np
 import pytest
 
-from nmrcheck.chem.enumerate import FormulaTable, enumerate_formulas, parse_element_ranges
+from nmrcheck.chem.enumerate import FormulaTable, Pruning, enumerate_formulas, parse_element_ranges
 from nmrcheck.chem.rules import RULE_PRESETS, evaluate_rules, filter_rules, pruning_for
 from nmrcheck.errors import FormulaError, ParameterError
 
@@ -189,3 +189,27 @@ def test_proton_bound_in_the_enumeration_is_the_proton_filter(visible):
     expected = as_set(every.take((h >= visible[0]) & (h - o - s - 2 * n <= visible[1])))
     assert expected
     assert as_set(enumerate_formulas(352.0, 352.2, ranges, pruning=Pruning(visible_h=(visible[0], visible[1], 0)))) == expected
+
+
+@pytest.mark.parametrize("first_group_size", [2_500_000, 50_000, 20_000, 3_000])
+def test_pruned_enumeration_keeps_only_the_element_probability_passes(monkeypatch, first_group_size):
+    """Golden rule 6 (Kind & Fiehn 2007 Table 3) is applied while enumerating, wherever the split puts
+    N, O, P and S (tabulated C H N O, C H O, C H P or C H alone): every composition found passes it,
+    and none that passes is lost."""
+    import nmrcheck.chem.enumerate as enumerate_module
+
+    ranges = {"C": (0, 30), "H": (0, 60), "N": (0, 12), "O": (0, 24), "P": (0, 6), "S": (0, 6)}
+    monkeypatch.setattr(enumerate_module, "_FIRST_GROUP_SIZE", first_group_size)
+    monkeypatch.setattr(enumerate_module, "_SECOND_GROUP_TARGET", 1)
+    enumerate_module._groups.cache_clear()
+    enumerate_module._probability_caps.cache_clear()
+    try:
+        every = enumerate_formulas(650.0, 650.4, ranges)
+        passing = as_set(every.take(evaluate_rules(every, rules=("element_probability",))["element_probability"]))
+        assert len(passing) < len(every)
+        only = Pruning(probability_groups=pruning_for("common").probability_groups)
+        pruned = enumerate_formulas(650.0, 650.4, ranges, pruning=only)
+        assert as_set(pruned) == passing
+    finally:
+        enumerate_module._groups.cache_clear()
+        enumerate_module._probability_caps.cache_clear()
