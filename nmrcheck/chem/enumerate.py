@@ -705,10 +705,12 @@ def _search(low, high, bounds, pruning: Pruning, cap: float) -> FormulaTable:
     keep = _pair_filter(ia, ib, a, b, symbols, pruning, groups_left)
     if keep is not None:
         ia, ib = ia[keep], ib[keep]
-    counts = np.zeros((ia.size, len(symbols)), dtype=np.int32)
-    counts[:, list(a.columns)] = a.counts[ia]
-    if b.columns:
-        counts[:, list(b.columns)] = b.counts[ib]
+    # Column-major: each element's counts are written, and later read by the rules, as one block.
+    counts = np.zeros((ia.size, len(symbols)), dtype=np.int32, order="F")
+    for k, j in enumerate(a.columns):
+        counts[:, j] = a.counts[:, k][ia]
+    for k, j in enumerate(b.columns):
+        counts[:, j] = b.counts[:, k][ib]
     masses = counts @ np.array([element(s).monoisotopic_mass for s in symbols])
     inside = (masses >= low) & (masses <= high)
     return FormulaTable(symbols, counts[inside], masses[inside])

@@ -165,10 +165,13 @@ def _valence_vector(table: FormulaTable) -> np.ndarray:
 
 def _weighted_sum(table: FormulaTable, weights) -> np.ndarray:
     """Sum over the columns of count * weight, column by column (integer products without a matrix copy)."""
-    total = np.zeros(len(table), dtype=np.int64)
+    # int32: counts are at most MAX_COUNT (1000) per element, weights a few hundred at most.
+    total = np.zeros(len(table), dtype=np.int32)
     for j, w in enumerate(weights):
-        if w:
-            total += table.counts[:, j] * int(w)
+        if w == 1:
+            total += table.counts[:, j]
+        elif w:
+            total += table.counts[:, j] * np.int32(w)
     return total
 
 
@@ -186,10 +189,9 @@ def _rule_lewis_senior(table: FormulaTable, ratio_range: str) -> np.ndarray:
     valence = _valence_vector(table)
     valence_sum = _weighted_sum(table, valence)
     atoms = _weighted_sum(table, [1] * len(valence))
-    max_valence = np.zeros(len(table), dtype=np.int64)
-    for j in np.argsort(valence, kind="stable"):
-        # Ascending valence: the last element present sets the largest valence.
-        max_valence[table.counts[:, j] > 0] = valence[j]
+    max_valence = np.zeros(len(table), dtype=np.int32)
+    for j, v in enumerate(valence):
+        np.maximum(max_valence, (table.counts[:, j] > 0) * np.int32(v), out=max_valence)
     # SENIOR: (i) even sum of valences (LEWIS parity), (ii) at least twice the largest
     # valence, (iii) at least twice the number of atoms minus one.
     return (valence_sum % 2 == 0) & (valence_sum >= 2 * max_valence) & (valence_sum >= 2 * (atoms - 1))
