@@ -10,7 +10,7 @@ import numpy as np
 from nmrcheck.errors import ParameterError
 from nmrcheck.processing.results import ProtonCount, Region
 
-__all__ = ["bounded_unit", "competing_units", "count_protons", "find_unit"]
+__all__ = ["bounded_unit", "competing_units", "count_protons", "find_unit", "near_totals"]
 
 #: Integration error model used to choose the unit: a region of n protons reads
 #: n * (1 +- RELATIVE_ERROR) +- ABSOLUTE_ERROR protons. Routine 1H spectra acquired with
@@ -93,6 +93,27 @@ def competing_units(integrals: Sequence[float], best_unit: float, *, margin: flo
         if abs(total - best_total) >= 0.25 * best_total:
             out[total] = float(u)
     return [out[t] for t in sorted(out)]
+
+
+def near_totals(integrals: Sequence[float], best_unit: float, *, margin: float = AMBIGUITY_MARGIN,
+                max_h_per_region: int = 12) -> list[float]:
+    """Totals (H) of the other candidate units that fit about as well as ``best_unit``.
+
+    Crowded spectra (overlapping methyls, a multiplet cut differently by the noise) can be
+    fitted by units a few protons apart at nearly the same cost. Each candidate unit of
+    :func:`find_unit` whose cost lies within ``margin`` of the best unit's gives its total;
+    only totals within 0.6-1.6 times the best one are returned (multiples are
+    :func:`competing_units`' business).
+    """
+    arr = np.asarray([x for x in integrals if x > 0], float)
+    best_cost = _cost(arr, best_unit)
+    best_total = arr.sum() / best_unit
+    out = set()
+    for u in _candidate_units(arr, max_h_per_region):
+        total = arr.sum() / u
+        if 0.6 * best_total <= total <= 1.6 * best_total and _cost(arr, u) <= best_cost + margin:
+            out.add(round(float(total), 2))
+    return sorted(out)
 
 
 def find_unit(integrals: Sequence[float], *, max_h_per_region: int = 12) -> tuple[float, float]:
@@ -184,6 +205,7 @@ def count_protons(
     integrals = np.array([regions[i].integral for i in counted_idx])
     sig = np.zeros(len(regions)) if integral_sigma is None else np.asarray(integral_sigma, float)
     alternatives: list[float] = []
+    neighbours: list[float] = []
     bounded: tuple[int, ...] | None = None
     if anchor_h is not None:
         if anchor_h <= 0:
@@ -198,6 +220,7 @@ def count_protons(
         unit, _ = find_unit(integrals)
         method = "self-consistent"
         alternatives = competing_units(integrals, unit, detection_limit=one_proton_detection_limit)
+        neighbours = near_totals(integrals, unit)
     out = list(regions)
     hs = integrals / unit
     for i, h in zip(counted_idx, hs):
@@ -210,6 +233,10 @@ def count_protons(
     # the low end of the range is what the major regions alone hold.
     low = min(total - half, integer - 2.0 * noise_h - 0.3)
     high = total + half
+    # Units a few protons apart that fit about as well widen the range to their totals.
+    if neighbours:
+        low = min(low, min(neighbours) - 0.3)
+        high = max(high, max(neighbours) + 0.3)
     residuals = tuple(float(h - np.round(h)) for h in hs)
     totals: tuple[float, ...] = ()
     if alternatives:

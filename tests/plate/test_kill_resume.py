@@ -107,6 +107,7 @@ def test_killed_run_leaves_nothing_running_and_resumes(plate, tmp_path, workers)
     seed = random.randrange(1_000_000)
     rng = random.Random(seed)
     kills = 0
+    cut_short = 0  # kills that left wells unscreened (the run cannot have finished)
     for trial in range(2):
         tag = uuid.uuid4().hex
         target = min(_stored(out) + rng.randint(1, 4), len(reference) - 1)
@@ -122,6 +123,7 @@ def test_killed_run_leaves_nothing_running_and_resumes(plate, tmp_path, workers)
             kills += 1
         proc.wait(timeout=30)
         proc.stderr.close()
+        cut_short += _stored(out) < len(reference)
         assert _left_behind(tag) == [], f"seed {seed}, trial {trial}: processes left behind"
     from nmrcheck.plate import read_manifest, run_plate
 
@@ -139,7 +141,9 @@ def test_killed_run_leaves_nothing_running_and_resumes(plate, tmp_path, workers)
     # A killed run is marked interrupted by the next run; one that stored its last well in the
     # instant before the kill arrived is rightly 'complete' (its results are all there).
     assert all(r.status in ("interrupted", "complete") for r in runs[:-1]), f"seed {seed}"
-    assert sum(r.status == "interrupted" for r in runs) >= 1, f"seed {seed}"
+    # On a loaded machine the 0-0.15 s before a kill can be enough to finish the plate; every run
+    # killed with wells still unscreened must have been marked interrupted.
+    assert sum(r.status == "interrupted" for r in runs) >= cut_short, f"seed {seed}: {cut_short} run(s) killed with wells left"
     with ResultsStore(out) as store:
         assert store.integrity_ok()
 

@@ -8,7 +8,7 @@ import pytest
 
 from nmrcheck.errors import ParameterError
 from nmrcheck.processing import process
-from nmrcheck.processing.count import bounded_unit, competing_units, count_protons, find_unit
+from nmrcheck.processing.count import bounded_unit, competing_units, count_protons, find_unit, near_totals
 from nmrcheck.processing.results import Region
 from nmrcheck.synth import Line, simulate_fid
 
@@ -78,6 +78,21 @@ def test_detection_limit_follows_the_noise():
     noisy = process(simulate_fid(lines, spectrometer_mhz=400.0, sweep_width_hz=4800.0, points=16384, noise=scale, seed=3))
     c = noisy.count
     assert c.ambiguous and c.total_h_low <= 12 <= c.total_h_high
+
+
+def test_range_spans_units_a_few_protons_apart_that_fit_as_well():
+    """A crowded aliphatic spectrum (a C20 terpenoid-like compound: seven one-proton multiplets, a
+    cluster of three overlapping methyls and a fourth methyl; relaxation-weighted, the ring
+    multiplets at 60-110 % of their area, as after a short delay): units giving 16-20 H cost
+    about the same, so the range must reach from about 16 to about 20 H, while clean integer
+    ratios (1:1:2:3, 7 H) keep a narrow one."""
+    crowded = [1.14, 1.07, 0.90, 0.83, 0.72, 0.83, 0.58, 0.37, 7.08, 3.13]
+    unit, _ = find_unit(crowded)
+    assert max(near_totals(crowded, unit)) >= 19.0
+    _, count = count_protons(_regions(crowded))
+    assert count.total_h_low <= 16.5 and count.total_h_high >= 19.5
+    _, clean = count_protons(_regions([1.0, 1.02, 1.98, 3.03]))
+    assert clean.total_h_high - clean.total_h_low <= 1.5
 
 
 def test_candidate_formulas_bound_the_unit():

@@ -15,9 +15,6 @@ BRUKER = ["aminoacid-mix-d2o-600", "aminoacid-mix-undried-1", "culture-medium-d2
 #: Recordings whose observed total does not (yet) reach the structure's H count, with the
 #: figure measured when this list was last updated. Kept visible, not tuned around.
 COUNT_MISSES: dict[str, str] = {
-    "50-78-2": "measured 6.0 H (5.5-6.5) for 7 C-H + 1 COOH: no CHCl3 line is seen, and the aromatic triplet at 7.28 ppm "
-               "sits at its table position and is flagged with it (counting such multiplets gave 7.0 H here but 9.2 H on "
-               "this recording's SNR-100 copies, where the methyl reads 2.2 H: measured and not kept)",
     "517920-70-6": "measured 16.1 H (15.3-16.9) for 2 C-H + 2 exchangeable: most of the signal is not from the listed structure (impurities)",
 }
 
