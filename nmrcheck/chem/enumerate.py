@@ -336,12 +336,13 @@ class _Bins:
 
 
 # Bins of one part per million of the mass cap: a few per mass window at any tolerance this
-# engine accepts, and a million int32 entries (4 MB) at most per segment.
+# engine accepts, and a million int32 entries (4 MB) at most per segment; a small table gets
+# about four bins per row instead (wider bins, each still holding few rows).
 _BINS_PER_CAP = 1_000_000
 
 
 def _bins(masses: np.ndarray, cap: float) -> _Bins:
-    per_u = _BINS_PER_CAP / cap
+    per_u = max(1024, min(_BINS_PER_CAP, 4 * masses.size)) / cap
     if masses.size == 0:
         return _Bins(0.0, per_u, np.zeros(1, dtype=np.int32))
     origin = float(masses[0])
