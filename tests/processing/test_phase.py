@@ -170,6 +170,8 @@ def test_signal_groups_avoid_excluded_ranges():
         {"min_snr": -1.0},
         {"refine_p0_deg": 120.0},
         {"baseline_edge_hz": 0.0},
+        {"signal_floor_snr": -1.0},
+        {"signal_smoothing_hz": 0.0},
         {"iterations": -1},
         {"exclude_ppm": [(4.5,)]},
         {"exclude_ppm": [(4.5, float("nan"))]},
