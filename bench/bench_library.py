@@ -22,6 +22,7 @@ from __future__ import annotations
 
 import argparse
 import csv
+import resource
 import statistics
 import sys
 import tempfile
@@ -83,6 +84,12 @@ def _smiles_library(path: Path, n: int, rng, repeats: float = 0.0) -> list[str]:
             smiles_all.append(smiles)
             w.writerow([f"compound {i}", smiles, GENERA[i % len(GENERA)], FAMILIES[i % len(FAMILIES)]])
     return smiles_all
+
+
+def _cpu_seconds() -> float:
+    """User and system CPU seconds of this process and of its finished children (the worker processes)."""
+    own, children = resource.getrusage(resource.RUSAGE_SELF), resource.getrusage(resource.RUSAGE_CHILDREN)
+    return own.ru_utime + own.ru_stime + children.ru_utime + children.ru_stime
 
 
 def _peer_structures(smiles_all: list[str]) -> tuple[dict[int, tuple], float]:
@@ -153,7 +160,9 @@ def structures(n: int, peer_entries: int, worker_counts: list[int], repeats: flo
     with tempfile.TemporaryDirectory() as tmp:
         src = Path(tmp) / "smiles.csv"
         smiles_all = _smiles_library(src, n, rng, repeats)
+        cpu0 = _cpu_seconds()
         peer, peer_s = _peer_structures(smiles_all[:peer_entries])
+        peer_cpu_us = 1e6 * (_cpu_seconds() - cpu0) / min(n, peer_entries)
         peer_us = 1e6 * peer_s / min(n, peer_entries)
         print(f"  peer (plain loop, 1 process) on {min(n, peer_entries)} entries: {peer_us:.0f} us per entry, "
               f"500,000 entries in about {500_000 * peer_us / 1e6:.0f} s")
@@ -161,7 +170,9 @@ def structures(n: int, peer_entries: int, worker_counts: list[int], repeats: flo
             # each run starts cold: worker processes are forked and would inherit what an earlier run cached
             library_module.structure_formula_and_key.cache_clear()
             library_module._formula_and_charge.cache_clear()
+            cpu0 = _cpu_seconds()
             info = index_library(src, Path(tmp) / f"s{workers}.sqlite", workers=workers)
+            cpu = _cpu_seconds() - cpu0
             us = 1e6 * info.seconds / n
             con = sqlite3.connect(info.database)
             stored = {line: (f, c, m, k) for line, f, c, m, k in con.execute("SELECT line, formula, charge, mass, key14 FROM compounds")}
@@ -172,6 +183,11 @@ def structures(n: int, peer_entries: int, worker_counts: list[int], repeats: flo
             print(f"  workers {workers}: {info.seconds:.1f} s for {info.entries} entries ({info.skipped} unreadable): "
                   f"{us:.0f} us per entry, 500,000 entries in about {500_000 * us / 1e6:.0f} s; "
                   f"peer/index {peer_us / us:.2f}; rows differing from the peer {differ + extra} of {len(peer)}")
+            # CPU time is what a shared machine cannot take away: on free cores the wall time is about
+            # the CPU time over the processes that share it.
+            cpu_us = 1e6 * cpu / n
+            print(f"    CPU (this process and its workers) {cpu_us:.0f} us per entry: on {workers} free core(s) "
+                  f"500,000 entries in about {500_000 * cpu_us / 1e6 / workers:.0f} s; peer CPU/index CPU {peer_cpu_us / cpu_us:.2f}")
 
 
 def main(argv=None) -> int:
