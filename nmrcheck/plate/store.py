@@ -96,7 +96,8 @@ def _why(exc: sqlite3.Error) -> str:
 
 
 def _utc() -> str:
-    return time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime()) + f"{time.time() % 1:.6f}"[1:]
+    now = time.time()
+    return time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime(now)) + f"{now % 1:.6f}"[1:]
 
 
 @dataclass(frozen=True)
@@ -198,7 +199,8 @@ class ResultsStore:
             self._conn.execute("UPDATE runs SET finished_utc=?, status=? WHERE run_id=?", (_utc(), status, run_id))
 
     def runs(self) -> list[RunRecord]:
-        rows = self._conn.execute("SELECT * FROM runs ORDER BY started_utc").fetchall()
+        # Insertion order: the wall clock may be stepped back between two runs.
+        rows = self._conn.execute("SELECT * FROM runs ORDER BY rowid").fetchall()
         return [RunRecord(r[0], r[1], r[2], r[3], json.loads(r[4]), r[5], r[6]) for r in rows]
 
     # -- results

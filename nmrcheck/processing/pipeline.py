@@ -185,7 +185,7 @@ def one_proton_detection_limit(spectrum: Spectrum, regions, *, noise: float, thr
                     best = i
     if best is None:
         return None
-    width_ppm = half_height_width_hz(spectrum, best) / spectrum.spectrometer_mhz
+    width_ppm = half_height_width_hz(spectrum, best) * spectrum.step_ppm / spectrum.hz_per_point
     return ONE_PROTON_LINES * threshold_snr * noise * np.pi / 2.0 * width_ppm
 
 
