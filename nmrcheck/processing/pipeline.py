@@ -167,13 +167,8 @@ def phasing_exclusion(spectrum: Spectrum, options: ProcessingOptions | None = No
 ONE_PROTON_LINES = 4
 
 
-def one_proton_detection_limit(spectrum: Spectrum, regions, *, noise: float, threshold_snr: float) -> float | None:
-    """Smallest integral with which a one-proton double doublet stands above the detection threshold.
-
-    Its four lines are taken as wide as the tallest counted line at half height
-    (Lorentzian: area = pi/2 x height x width), each holding a quarter of the area;
-    the lines must reach ``threshold_snr`` x ``noise``. None without a counted region.
-    """
+def _tallest_counted_point(spectrum: Spectrum, regions) -> int | None:
+    """Index of the tallest point of the real spectrum inside a counted region (None without one)."""
     y = spectrum.data.real
     best = None
     for r in regions:
@@ -183,6 +178,17 @@ def one_proton_detection_limit(spectrum: Spectrum, regions, *, noise: float, thr
                 i = sl.start + int(np.argmax(y[sl]))
                 if best is None or y[i] > y[best]:
                     best = i
+    return best
+
+
+def one_proton_detection_limit(spectrum: Spectrum, regions, *, noise: float, threshold_snr: float) -> float | None:
+    """Smallest integral with which a one-proton double doublet stands above the detection threshold.
+
+    Its four lines are taken as wide as the tallest counted line at half height
+    (Lorentzian: area = pi/2 x height x width), each holding a quarter of the area;
+    the lines must reach ``threshold_snr`` x ``noise``. None without a counted region.
+    """
+    best = _tallest_counted_point(spectrum, regions)
     if best is None:
         return None
     width_ppm = half_height_width_hz(spectrum, best) * spectrum.step_ppm / spectrum.hz_per_point
@@ -194,13 +200,8 @@ def snr_of(spectrum: Spectrum, regions, noise: float) -> float:
 
     (Height over 2 sigma is a common convention for 1H SNR figures; from memory.)
     """
-    best = 0.0
-    y = spectrum.data.real
-    for r in regions:
-        if r.counted:
-            sl = spectrum.slice_of(r.start_ppm, r.end_ppm)
-            if sl.stop > sl.start:
-                best = max(best, float(y[sl].max()))
+    i = _tallest_counted_point(spectrum, regions)
+    best = max(0.0, float(spectrum.data.real[i])) if i is not None else 0.0
     return best / (2.0 * noise) if noise > 0 else 0.0
 
 

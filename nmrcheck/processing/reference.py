@@ -146,39 +146,35 @@ def has_carbon_satellites(spectrum: Spectrum, i: int) -> bool:
     return False
 
 
-def quintet_ratios(spectrum: Spectrum, i: int) -> tuple[float, float, float]:
-    """(H-D coupling Hz, mean height at +-J over the centre, at +-2J over the centre), best J.
-
-    The J searched is the one whose four outer positions hold the most intensity.
-    """
-    y = spectrum.data.real
-    hz = spectrum.hz_per_point
-    grid = np.arange(HD_COUPLING_HZ[0], HD_COUPLING_HZ[1] + 1e-9, 0.05)
-    x = np.arange(y.size, dtype=float)
-    best = (float(grid[0]), 0.0, 0.0)
-    top = y[i]
-    if top <= 0:
-        return best
-    score_best = -np.inf
-    for j in grid:
-        d = j / hz
-        pts = np.array([i - 2 * d, i - d, i + d, i + 2 * d])
-        if pts.min() < 0 or pts.max() > y.size - 1:
-            continue
-        v = np.interp(pts, x, y)
-        score = v.sum()
-        if score > score_best:
-            score_best = score
-            best = (float(j), float((v[1] + v[2]) / (2 * top)), float((v[0] + v[3]) / (2 * top)))
-    return best
-
-
 def _quintet_sides(spectrum: Spectrum, i: int, j_hz: float) -> np.ndarray:
     """Heights at -2J, -1.5J, -J, -J/2, +J/2, +J, +1.5J, +2J from line ``i``, over its own height."""
     y = spectrum.data.real
     d = j_hz / spectrum.hz_per_point
     pts = i + d * np.array([-2.0, -1.5, -1.0, -0.5, 0.5, 1.0, 1.5, 2.0])
     return np.interp(pts, np.arange(y.size, dtype=float), y) / y[i]
+
+
+def quintet_ratios(spectrum: Spectrum, i: int) -> tuple[float, float, float]:
+    """(H-D coupling Hz, mean height at +-J over the centre, at +-2J over the centre), best J.
+
+    The J searched is the one whose four outer positions hold the most intensity.
+    """
+    y = spectrum.data.real
+    grid = np.arange(HD_COUPLING_HZ[0], HD_COUPLING_HZ[1] + 1e-9, 0.05)
+    best = (float(grid[0]), 0.0, 0.0)
+    if y[i] <= 0:
+        return best
+    score_best = -np.inf
+    for j in grid:
+        d = 2 * j / spectrum.hz_per_point
+        if i - d < 0 or i + d > y.size - 1:
+            continue
+        far_l, _, near_l, _, _, near_r, _, far_r = _quintet_sides(spectrum, i, j)
+        score = far_l + near_l + near_r + far_r
+        if score > score_best:
+            score_best = score
+            best = (float(j), float((near_l + near_r) / 2), float((far_l + far_r) / 2))
+    return best
 
 
 def looks_like_quintet(spectrum: Spectrum, i: int, *, resolved_only: bool = False) -> bool:

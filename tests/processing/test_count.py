@@ -46,7 +46,7 @@ def test_competing_units_are_multiples_of_the_best():
 
 
 def test_twice_the_count_is_offered_when_one_proton_signals_could_hide():
-    """4-allylanisole (C10H12O; 2/2/1/2/3/2 H) with its one-proton vinyl multiplet lost in the noise:
+    """4-allylanisole (C10H12O, PubChem, from memory; 2/2/1/2/3/2 H) with its one-proton vinyl multiplet lost in the noise:
     the survivors read 2:2:2:3.75:2 (the methyl relaxes faster than the ring protons after a short
     delay). 1:1:1:2:1 at twice the unit fits as well, and the preference for fewer protons picks
     6 H. That preference rests on every one-proton signal being seen: when a one-proton multiplet
@@ -81,7 +81,7 @@ def test_detection_limit_follows_the_noise():
 
 
 def test_range_spans_units_a_few_protons_apart_that_fit_as_well():
-    """A crowded aliphatic spectrum (a C20 terpenoid-like compound: seven one-proton multiplets, a
+    """Synthetic integrals of a crowded aliphatic spectrum (a C20 terpenoid-like compound: seven one-proton multiplets, a
     cluster of three overlapping methyls and a fourth methyl; relaxation-weighted, the ring
     multiplets at 60-110 % of their area, as after a short delay): units giving 16-20 H cost
     about the same, so the range must reach from about 16 to about 20 H, while clean integer
