@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import concurrent.futures as cf
 import contextlib
+import dataclasses
 import logging
 import math
 import os
@@ -28,6 +29,7 @@ from nmrcheck.errors import NmrcheckError, OutputError, ParameterError, human_me
 from nmrcheck.io.completeness import expected_size_reached, has_end_marker, recording_fingerprint
 from nmrcheck.plate.lock import OutputLock
 from nmrcheck.plate.manifest import Manifest, WellSpec, resolve_spectrum
+from nmrcheck.plate.phase_survey import survey_shared_phase
 from nmrcheck.plate.progress import Progress
 from nmrcheck.plate.results import WellResult
 from nmrcheck.plate.screen import ScreenOptions, failure_result, screen_well, well_options_hash
@@ -371,11 +373,16 @@ def run_plate(
         return failure_result(spec, options, message)
 
     with OutputLock(out) as lock, ResultsStore(out) as store, _stop_on_signals():
-        run_id = store.start_run(manifest=manifest.path, options=run_options, software_version=__version__)
         keys = {s.well: (s.well, well_options_hash(s, options)) for s in manifest.wells}
         stored = store.fingerprints()
         todo = [s for s in manifest.wells if redo or _needs_screening(s, keys[s.well], stored, directory)]
         skipped = len(manifest.wells) - len(todo)
+        if todo and not options.shared_phase:
+            # Every complete recording informs the shared first-order phase, screened before or not.
+            shared = survey_shared_phase(manifest.wells, directory, options.processing)
+            options = dataclasses.replace(options, shared_phase=shared)
+            run_options["shared_phase"] = [s.describe() for s in shared]
+        run_id = store.start_run(manifest=manifest.path, options=run_options, software_version=__version__)
         progress.start(total=len(todo), skipped=skipped, watch=watch)
         if executor is None:
             _preload()

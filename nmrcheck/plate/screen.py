@@ -21,9 +21,11 @@ import numpy as np
 
 from nmrcheck import __version__
 from nmrcheck.errors import InputFileError, NmrcheckError, ParameterError, human_message
+from nmrcheck.io import Fid
 from nmrcheck.plate.manifest import WellSpec, resolve_spectrum
 from nmrcheck.plate.results import Dereplication, KnownMatch, SpectrumTrace, WellResult, options_hash
 from nmrcheck.processing import ProcessingOptions
+from nmrcheck.processing.shared_phase import SharedPhase, acquisition_key
 from nmrcheck.tolerances import DEFAULT_TOLERANCE_PPM
 
 __all__ = ["ScreenOptions", "failure_result", "screen_well", "well_options_hash", "plain"]
@@ -63,6 +65,11 @@ class ScreenOptions:
     family: str | None = None
     retention_calibration: str | None = None
     """Retention calibration file (reference compounds' rt_min and logP or SMILES); None: fit on the plate."""
+    shared_phase: tuple[SharedPhase, ...] = ()
+    """First-order phases the plate's strong wells share, one per acquisition set (found by the
+    runner's survey, :mod:`nmrcheck.plate.phase_survey`). Measured on the plate rather than chosen,
+    so left out of the results' key: a result screened before a later survey stays valid, and the
+    value a well used is stored with its processing options."""
 
     def __post_init__(self) -> None:
         if not 0 < self.mass_tolerance_ppm <= 100:
@@ -81,12 +88,15 @@ class ScreenOptions:
     def as_dict(self) -> dict[str, Any]:
         d = dataclasses.asdict(self)
         d["processing"] = self.processing.as_dict()
+        d["shared_phase"] = [plain(s) for s in self.shared_phase]
         return d
 
 
 def well_options_hash(spec: WellSpec, options: ScreenOptions) -> str:
-    """Key of a result: the options and what of the manifest row changes the result."""
-    return options_hash(options.as_dict(), spec.fingerprint())
+    """Key of a result: the options and what of the manifest row changes the result (not the shared phase)."""
+    chosen = options.as_dict()
+    del chosen["shared_phase"]
+    return options_hash(chosen, spec.fingerprint())
 
 
 def failure_result(spec: WellSpec, options: "ScreenOptions", message: str, *, status: str = "error") -> WellResult:
@@ -453,6 +463,14 @@ def _claimed_h_counts(spec: WellSpec, solvent: str | None) -> tuple[int, ...] | 
     return tuple(sorted(totals)) or None
 
 
+def _shared_phase_of(record: Any, options: ScreenOptions) -> SharedPhase | None:
+    """The plate's shared first-order phase for ``record``'s acquisition set (None for a processed spectrum or no match)."""
+    if not options.shared_phase or not isinstance(record, Fid):
+        return None
+    key = acquisition_key(record)
+    return next((s for s in options.shared_phase if s.key == key), None)
+
+
 def screen_well(spec: WellSpec, directory: str, options: ScreenOptions) -> WellResult:
     """Screen one well; every failure is returned as the result's status and error, never raised.
 
@@ -506,6 +524,10 @@ def screen_well(spec: WellSpec, directory: str, options: ScreenOptions) -> WellR
             popts = dataclasses.replace(popts, solvent=spec.solvent)
         elif spec.solvent and file_solvent != spec.solvent:
             notes.append(f"manifest solvent {spec.solvent} differs from the recording's {file_solvent}; the recording's is used")
+        shared = _shared_phase_of(record, options)
+        if shared is not None and popts.phase is None:
+            popts = dataclasses.replace(popts, shared_p1=(shared.p1_deg, shared.scale_deg))
+            notes.append(f"phased with the plate's {shared.describe()}")
         counts = _claimed_h_counts(spec, file_solvent or spec.solvent)
         if counts:
             try:

@@ -35,7 +35,7 @@ from nmrcheck.processing.noise import noise_level
 from nmrcheck.processing.results import PhaseCorrection
 from nmrcheck.processing.spectrum import ProcessingStep, Spectrum
 
-__all__ = ["apply_phase", "auto_phase", "peak_phases", "PeakPhase", "SignalGroup", "signal_groups"]
+__all__ = ["apply_phase", "auto_phase", "channel_noise", "peak_phases", "PeakPhase", "SignalGroup", "signal_groups"]
 
 logger = logging.getLogger("nmrcheck")
 
@@ -105,7 +105,7 @@ def _allowed_mask(spectrum: Spectrum, exclude_ppm: Sequence[tuple[float, float]]
     return allowed
 
 
-def _channel_noise(data: np.ndarray) -> float:
+def channel_noise(data: np.ndarray) -> float:
     """Noise standard deviation of one quadrature channel (the unit of every SNR threshold here)."""
     return float(np.sqrt(0.5 * (noise_level(data.real) ** 2 + noise_level(data.imag) ** 2)))
 
@@ -140,7 +140,7 @@ def peak_phases(
     data = spectrum.data
     mag = np.abs(data)
     n = mag.size
-    sigma = _channel_noise(data)
+    sigma = channel_noise(data)
     allowed = _allowed_mask(spectrum, exclude_ppm)
     # Local maxima over +-3 points that stand clear of the noise.
     is_max = (mag == maximum_filter1d(mag, size=7)) & allowed & (mag > min_snr * sigma)
@@ -243,7 +243,7 @@ def signal_groups(
     n = data.size
     mag = np.abs(data)
     allowed = _allowed_mask(spectrum, exclude_ppm)
-    floor = min_snr * _channel_noise(data)
+    floor = min_snr * channel_noise(data)
     idx = find_peaks(mag, height=floor, prominence=floor)[0]
     if idx.size == 0:
         return []
@@ -332,12 +332,13 @@ def _best_rotation(
     max_p1_deg: float = np.inf,
     p1_scale_deg: float | None = None,
     prior_weight: float = 0.0,
+    p1_centre_deg: float = 0.0,
 ) -> tuple[float, float]:
     """(d0 at the pivot, d1) minimising the weighted sum of the cube-rooted group energies.
 
     The first-order change ``d1`` is kept so that ``|p1_now_deg + d1| <= max_p1_deg``;
-    with ``p1_scale_deg`` a quadratic prior ``prior_weight * (p1 / p1_scale_deg)**2`` (per
-    unit of group weight) pulls the total first-order phase toward zero.
+    with ``p1_scale_deg`` a quadratic prior ``prior_weight * ((p1 - p1_centre_deg) / p1_scale_deg)**2``
+    (per unit of group weight) pulls the total first-order phase toward ``p1_centre_deg``.
     """
     heights = np.array([g.height for g in groups])
     weights = (heights / heights.max()) ** weight_power
@@ -359,7 +360,7 @@ def _best_rotation(
     # smallest change; the tie-breaker is far below any real curvature.
     total += 1e-5 * weights.sum() * np.abs(d1)[None, :]
     if p1_scale_deg:
-        total += prior_weight * weights.sum() * ((p1_now_deg + d1) / p1_scale_deg)[None, :] ** 2
+        total += prior_weight * weights.sum() * ((p1_now_deg + d1 - p1_centre_deg) / p1_scale_deg)[None, :] ** 2
     i, j = np.unravel_index(int(np.argmin(total)), total.shape)
     # Close to the optimum the groups stop sensing the error (a phase error t
     # shows only beyond ~1/t half-widths from a line), so the objective has a
@@ -407,7 +408,7 @@ def group_phases(spectrum: Spectrum, groups: Sequence[SignalGroup], *, edge_frac
     """
     data = spectrum.data
     n = data.size
-    sigma = _channel_noise(data)
+    sigma = channel_noise(data)
     mag = np.abs(data)
     out: list[GroupPhase] = []
     for g in groups:
@@ -439,27 +440,30 @@ def group_phases(spectrum: Spectrum, groups: Sequence[SignalGroup], *, edge_frac
 
 
 def _fit_group_line(phases: Sequence[GroupPhase], *, fit_p1: bool, max_p1_deg: float, p1_sd_deg: float,
-                    tukey_c: float = 4.685) -> tuple[float, float, float]:
+                    p1_centre_deg: float = 0.0, tukey_c: float = 4.685) -> tuple[float, float, float]:
     """(p0 at x = 0, p1, robust spread) of the weighted circular line through the group phases.
 
-    Inverse-variance weights, a Gaussian prior of ``p1_sd_deg`` on ``p1`` (zero mean)
-    within ``|p1| <= max_p1_deg``, and Tukey's biweight on the standardised residuals
-    so that a group biased by overlap cannot drag the line.
+    Inverse-variance weights, a Gaussian prior of ``p1_sd_deg`` on ``p1`` about
+    ``p1_centre_deg`` within ``|p1| <= max_p1_deg``, and Tukey's biweight on the
+    standardised residuals so that a group biased by overlap cannot drag the line.
+    Without ``fit_p1``, ``p1`` is held at the prior's centre.
     """
     x = np.array([p.x for p in phases])
     phi = np.radians([p.phase_deg for p in phases])
     w = 1.0 / np.radians([p.sd_deg for p in phases]) ** 2
     prior = 1.0 / np.radians(p1_sd_deg) ** 2
+    centre = np.radians(p1_centre_deg)
     if not fit_p1 or np.ptp(x) < 1e-3:
-        z = np.sum(w * np.exp(1j * phi))
-        p0, p1 = float(np.angle(z)), 0.0
+        p1 = float(centre)
+        z = np.sum(w * np.exp(1j * (phi - p1 * x)))
+        p0 = float(np.angle(z))
         grid = None
     else:
         grid = np.radians(np.arange(-max_p1_deg, max_p1_deg + 0.25, 0.5))
         # Coarse search: the p1 whose rotation best lines the phases up (weighted resultant),
         # the prior's log-density added in the same units.
         resultant = np.abs(np.exp(-1j * np.outer(grid, x)) @ (w * np.exp(1j * phi)))
-        p1 = float(grid[int(np.argmax(resultant - 0.5 * prior * grid**2))])
+        p1 = float(grid[int(np.argmax(resultant - 0.5 * prior * (grid - centre) ** 2))])
         p0 = float(np.angle(np.sum(w * np.exp(1j * (phi - p1 * x)))))
     sd = 1.0 / np.sqrt(w)
     for _ in range(30):
@@ -469,11 +473,11 @@ def _fit_group_line(phases: Sequence[GroupPhase], *, fit_p1: bool, max_p1_deg: f
         if np.count_nonzero(wt) == 0:
             break
         if grid is None:
-            new0, new1 = p0 + float(np.sum(wt * r) / wt.sum()), 0.0
+            new0, new1 = p0 + float(np.sum(wt * r) / wt.sum()), p1
         else:
             # Normal equations of the weighted fit plus the prior on p1.
             a = np.array([[wt.sum(), np.dot(wt, x)], [np.dot(wt, x), np.dot(wt, x * x) + prior]])
-            b = np.array([np.dot(wt, r + p0 + p1 * x), np.dot(wt, x * (r + p0 + p1 * x))])
+            b = np.array([np.dot(wt, r + p0 + p1 * x), np.dot(wt, x * (r + p0 + p1 * x)) + prior * centre])
             try:
                 new0, new1 = np.linalg.solve(a, b)
             except np.linalg.LinAlgError:
@@ -496,6 +500,7 @@ def auto_phase(
     max_p1_deg: float = 120.0,
     p1_scale_deg: float = 60.0,
     p1_prior_weight: float = 0.002,
+    p1_centre_deg: float = 0.0,
     min_groups_for_p1: int = 3,
     use_group_integrals: bool = True,
     max_peaks: int = 40,
@@ -535,6 +540,12 @@ def auto_phase(
         Largest first-order correction accepted, degrees across the spectral width.
     p1_scale_deg, p1_prior_weight : float
         Scale (deg) and weight (per unit of group weight) of the prior on ``p1``.
+    p1_centre_deg : float
+        Centre of that prior, and the first-order phase used when too few groups
+        survive to fit one. 0 for a spectrum on its own; recordings acquired with the
+        same parameters share their first-order phase (it is a matter of timing, not
+        of the sample), so a plate passes the value its strong wells agree on
+        (:mod:`nmrcheck.processing.shared_phase`) with a tighter prior.
     min_groups_for_p1 : int
         Fewest signal groups with which ``p1`` is fitted at all.
     max_peaks : int
@@ -582,6 +593,8 @@ def auto_phase(
         raise ParameterError(f"max_p1_deg: must be between 0 and 720 deg, got {max_p1_deg!r}")
     if not (p1_scale_deg > 0 and p1_prior_weight >= 0):
         raise ParameterError(f"p1_scale_deg, p1_prior_weight: need a positive scale and a weight >= 0, got {p1_scale_deg!r}, {p1_prior_weight!r}")
+    if not (np.isfinite(p1_centre_deg) and abs(p1_centre_deg) <= max_p1_deg):
+        raise ParameterError(f"p1_centre_deg: must be a finite angle within max_p1_deg ({max_p1_deg:g} deg), got {p1_centre_deg!r}")
     if not (isinstance(min_groups_for_p1, (int, np.integer)) and min_groups_for_p1 >= 2):
         raise ParameterError(f"min_groups_for_p1: must be a whole number >= 2, got {min_groups_for_p1!r}")
     if not (isinstance(max_peaks, (int, np.integer)) and max_peaks >= 1):
@@ -619,8 +632,11 @@ def auto_phase(
     fit_p1 = len(phases) >= min_groups_for_p1
     spread = None
     if phases:
-        p0, p1, spread = _fit_group_line(phases, fit_p1=fit_p1, max_p1_deg=max_p1_deg, p1_sd_deg=p1_scale_deg)
+        p0, p1, spread = _fit_group_line(phases, fit_p1=fit_p1, max_p1_deg=max_p1_deg, p1_sd_deg=p1_scale_deg,
+                                         p1_centre_deg=p1_centre_deg)
         method = "group integrals" if fit_p1 else "group integrals, zero order only (too few signal groups for a first-order term)"
+        if p1_centre_deg:
+            method += f"; first order {'drawn toward' if fit_p1 else 'held at'} the shared {p1_centre_deg:.1f} deg"
         used = len(phases)
     else:
         fit_p1 = len(peaks) >= min_groups_for_p1
@@ -628,14 +644,14 @@ def auto_phase(
             p0, p1 = _fit_line(peaks, min(p1_range_deg, max_p1_deg) if max_p1_deg > 0 else 0.5)
             p1 = float(np.clip(p1, -max_p1_deg, max_p1_deg))
         else:
-            z = np.array([pk.height * np.exp(1j * np.radians(pk.phase_deg)) for pk in peaks])
-            p0, p1 = float(np.degrees(np.angle(z.sum()))), 0.0
+            z = np.array([pk.height * np.exp(1j * np.radians(pk.phase_deg - p1_centre_deg * pk.x)) for pk in peaks])
+            p0, p1 = float(np.degrees(np.angle(z.sum()))), float(p1_centre_deg)
         method, used = "peak-phase regression" if fit_p1 else "peak phase (zero order only)", len(peaks)
     if groups and iterations:
         # Pivot at the strongest group, where p0 and p1 are least correlated.
         pivot_x = max(groups, key=lambda g: g.height).x
         edge = max(2, int(round(baseline_edge_hz / spectrum.hz_per_point)))
-        floor = signal_floor_snr * _channel_noise(spectrum.data)
+        floor = signal_floor_snr * channel_noise(spectrum.data)
         smooth = max(1, int(round(signal_smoothing_hz / spectrum.hz_per_point)))
         x = np.arange(spectrum.size) / spectrum.size
         for _ in range(iterations):
@@ -647,6 +663,7 @@ def auto_phase(
                 curves, groups, pivot_x=pivot_x, p0_range_deg=refine_p0_deg,
                 p1_range_deg=refine_p1_deg if fit_p1 else 0.0, weight_power=0.5,
                 p1_now_deg=p1, max_p1_deg=max_p1_deg, p1_scale_deg=p1_scale_deg, prior_weight=p1_prior_weight,
+                p1_centre_deg=p1_centre_deg,
             )
             p0, p1 = p0 + d0 - d1 * pivot_x, p1 + d1
             if abs(d0) < 0.1 and abs(d1) < 0.2:

@@ -13,16 +13,17 @@ from nmrcheck.io import Fid, SpectrumFile, read_any
 from nmrcheck.processing.baseline import correct_baseline
 from nmrcheck.processing.count import count_protons
 from nmrcheck.processing.noise import noise_level
-from nmrcheck.processing.phase import apply_phase, auto_phase
+from nmrcheck.processing.phase import apply_phase, auto_phase, channel_noise, signal_groups
 from nmrcheck.processing.reference import half_height_width_hz, reference_axis
 from nmrcheck.processing.regions import find_regions
 from nmrcheck.processing.results import PhaseCorrection, Processed
+from nmrcheck.processing.shared_phase import SHARED_P1_PRIOR_WEIGHT, PhaseReading, acquisition_key
 from nmrcheck.processing.solvents import AQUEOUS, normalise_solvent
 from nmrcheck.processing.spectrum import ProcessingStep, Spectrum
 from nmrcheck.processing.suppression import suppression_foot, suppression_zone
 from nmrcheck.processing.transform import fourier_transform, spectrum_from_file
 
-__all__ = ["ProcessingOptions", "process", "snr_of", "MAX_SIZE"]
+__all__ = ["ProcessingOptions", "process", "phase_reading", "snr_of", "MAX_SIZE"]
 
 
 #: Largest spectrum (points) an option may ask for: 1 M points resolve 0.01 Hz over 20 ppm at 600 MHz.
@@ -71,6 +72,10 @@ class ProcessingOptions:
     suppression_halfwidth_ppm: float = 0.6
     """Largest half-width left out around the carrier when the pulse program presaturates
     (the zone actually left out is measured on the spectrum)."""
+    shared_p1: tuple[float, float] | None = None
+    """(p1_deg, scale_deg): first-order phase shared by recordings acquired with the same
+    parameters (a plate's strong wells, :mod:`nmrcheck.processing.shared_phase`), and how far
+    automatic phasing may move from it. None: each spectrum is phased on its own."""
 
     def __post_init__(self) -> None:
         if not _finite_within(self.lb_hz, -5, 50):
@@ -83,6 +88,10 @@ class ProcessingOptions:
         if self.phase is not None:
             if len(self.phase) != 2 or not _finite_within(self.phase[0], -MAX_P0_DEG, MAX_P0_DEG) or not _finite_within(self.phase[1], -MAX_P1_DEG, MAX_P1_DEG):
                 raise ParameterError(f"phase: {self.phase} must be two finite angles, p0 within +-{MAX_P0_DEG:g} deg and p1 within +-{MAX_P1_DEG:g} deg")
+        if self.shared_p1 is not None and (
+            len(self.shared_p1) != 2 or not _finite_within(self.shared_p1[0], -120.0, 120.0) or not _finite_within(self.shared_p1[1], 0.5, 180.0)
+        ):
+            raise ParameterError(f"shared_p1: {self.shared_p1} must be (p1 within +-120 deg, scale of 0.5-180 deg)")
         if self.anchor_h is not None and (
             not isinstance(self.anchor_h, (int, np.integer)) or isinstance(self.anchor_h, bool) or not 1 <= self.anchor_h <= MAX_ANCHOR_H
         ):
@@ -205,6 +214,38 @@ def snr_of(spectrum: Spectrum, regions, noise: float) -> float:
     return best / (2.0 * noise) if noise > 0 else 0.0
 
 
+def _prior_of(options: ProcessingOptions) -> dict[str, float]:
+    """auto_phase's first-order prior for ``options``: the shared value when given, else its defaults."""
+    if options.shared_p1 is None:
+        return {}
+    centre, scale = options.shared_p1
+    return {"p1_centre_deg": float(centre), "p1_scale_deg": float(scale), "p1_prior_weight": SHARED_P1_PRIOR_WEIGHT}
+
+
+def phase_reading(fid: Fid, options: ProcessingOptions | None = None, *, skip_below_snr: float = 0.0) -> PhaseReading:
+    """Transform ``fid`` and phase it on its own (no shared prior), as :func:`process` would.
+
+    The reading a plate's survey collects from each well to find the shared first-order
+    phase. A spectrum whose third-tallest signal group stays under ``skip_below_snr`` noise
+    standard deviations is not phased (it could not count as strong): its reading says so.
+    """
+    opts = options or ProcessingOptions()
+    spec = fourier_transform(fid, lb_hz=opts.lb_hz, size=opts.size)
+    if opts.solvent:
+        spec = replace(spec, acquisition=replace(spec.acquisition, solvent=normalise_solvent(opts.solvent)))
+    exclude = phasing_exclusion(spec, opts)
+    heights = sorted((g.height for g in signal_groups(spec, exclude_ppm=exclude)), reverse=True)
+    noise = channel_noise(spec.data)
+    third = heights[2] / noise if len(heights) >= 3 and noise > 0 else 0.0
+    if third < skip_below_snr:
+        return PhaseReading(source=fid.source, key=acquisition_key(fid), p1_deg=float("nan"), groups=len(heights),
+                            first_order_fitted=False, third_group_snr=float(third))
+    _, phase = auto_phase(spec, exclude_ppm=exclude)
+    fitted = phase.peaks_used > 0 and "zero order only" not in phase.method
+    return PhaseReading(source=fid.source, key=acquisition_key(fid), p1_deg=float(phase.p1_deg),
+                        groups=int(phase.peaks_used), first_order_fitted=fitted, third_group_snr=float(third))
+
+
 def process(source: Fid | SpectrumFile | str | os.PathLike, options: ProcessingOptions | None = None, **overrides: Any) -> Processed:
     """Process one recording: transform, phase, baseline, reference, integrate and count protons.
 
@@ -237,7 +278,7 @@ def process(source: Fid | SpectrumFile | str | os.PathLike, options: ProcessingO
     elif already_phased:
         phase = PhaseCorrection(0.0, 0.0, spec.first_ppm, "as processed by the instrument software")
     else:
-        spec, phase = auto_phase(spec, exclude_ppm=[(lo, hi) for lo, hi, _ in exclude])
+        spec, phase = auto_phase(spec, exclude_ppm=[(lo, hi) for lo, hi, _ in exclude], **_prior_of(opts))
         if phase.peaks_used == 0:
             warnings.append("no peak above noise to phase on; spectrum left unphased")
     spec = correct_baseline(spec, method=opts.baseline, smoothness_hz=opts.baseline_smoothness_hz)
