@@ -28,6 +28,9 @@ MINOR_PENALTY = 4.0
 #: integrals "about equally": only the preference for fewer protons separated them, so the
 #: count is reported as ambiguous between them.
 AMBIGUITY_MARGIN = PARSIMONY / 2.0
+#: High end of the range, as a multiple of the total's, when one-proton multiplets would be
+#: under the detection limit (:func:`count_protons`).
+HIDDEN_FACTOR = 2.0
 #: Relative integration error added to the range of the total, for baseline and
 #: relaxation losses (common practice for routine, not fully quantitative, spectra).
 SYSTEMATIC_FRACTION = 0.03
@@ -237,6 +240,13 @@ def count_protons(
     if neighbours:
         low = min(low, min(neighbours) - 0.3)
         high = max(high, max(neighbours) + 0.3)
+    # Where a one-proton multiplet of this unit would not be detected, the visible signals say
+    # nothing of how many such protons are missing: the total is a lower bound, and the range
+    # reaches as many protons again (a convention: the formula's H count is what settles it).
+    lower_bound = bool(method == "self-consistent" and one_proton_detection_limit is not None
+                       and one_proton_detection_limit >= unit)
+    if lower_bound:
+        high = max(high, HIDDEN_FACTOR * (total + half))
     residuals = tuple(float(h - np.round(h)) for h in hs)
     totals: tuple[float, ...] = ()
     if alternatives:
@@ -256,5 +266,6 @@ def count_protons(
         ambiguous=bool(alternatives),
         alternative_totals=totals,
         bounded_by=bounded,
+        lower_bound=lower_bound,
     )
     return tuple(out), count

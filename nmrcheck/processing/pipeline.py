@@ -325,6 +325,9 @@ def process(source: Fid | SpectrumFile | str | os.PathLike, options: ProcessingO
         limit = one_proton_detection_limit(spec, regions, noise=noise, threshold_snr=opts.threshold_snr)
         regions, count = count_protons(regions, integral_sigma=sigmas, anchor_h=opts.anchor_h,
                                        candidate_h_counts=opts.candidate_h_counts, one_proton_detection_limit=limit)
+        if count.lower_bound:
+            warnings.append(f"a one-proton multiplet would stay under the detection limit: {count.total_h:.1f} H is a lower "
+                            f"bound (range up to {count.total_h_high:.0f} H)")
     else:
         warnings.append("no analyte signal above the noise threshold")
     snr = snr_of(spec, regions, noise)

@@ -70,6 +70,10 @@ class ProtonCount:
     unless ``ambiguous``."""
     bounded_by: tuple[int, ...] | None = None
     """Whole-proton totals the caller allowed (candidate formulas' visible H), when given."""
+    lower_bound: bool = False
+    """True when a one-proton multiplet would stay under the detection limit at this unit: any
+    number of such signals may be missing, so the total is a lower bound and the range's high
+    end reaches at least twice it."""
 
 
 @dataclass(frozen=True)

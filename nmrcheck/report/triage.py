@@ -266,6 +266,9 @@ def _count(result: WellResult, check: Mapping[str, Any] | None) -> tuple[str, st
         detail = "the spectrum's own count"
         if count.get("total_h_low") is not None and count.get("total_h_high") is not None:
             detail += f", range {float(count['total_h_low']):.1f}-{float(count['total_h_high']):.1f} H"
+        if count.get("lower_bound"):
+            detail += "; a one-proton multiplet would stay under the detection limit, so more protons may be unseen"
+            return f"at least {float(count['total_h']):.1f} H", detail, False
         return f"{float(count['total_h']):.1f} H", detail, False
     return "", "", False
 

@@ -60,6 +60,21 @@ def test_twice_the_count_is_offered_when_one_proton_signals_could_hide():
     assert hidden.total_h_low <= 6 and hidden.total_h_high >= 12
 
 
+def test_count_is_a_lower_bound_when_one_proton_signals_cannot_be_seen():
+    """Only a methylene and two methyl singlets survive (2:3:3, clear integer ratios: 8 H). With the
+    detection limit of a one-proton multiplet under the unit the count stands as it is; above it,
+    any number of one-proton signals may be missing (common practice: signals under the detection
+    limit are unknown, not absent), so the count is a lower bound and the range reaches twice it."""
+    integrals = [2.0, 3.0, 3.05]
+    _, seen = count_protons(_regions(integrals), one_proton_detection_limit=0.5)
+    assert seen.integer_h == 8 and not seen.lower_bound and seen.total_h_high < 9.0
+    _, unseen = count_protons(_regions(integrals), one_proton_detection_limit=1.5)
+    assert unseen.integer_h == 8 and unseen.lower_bound
+    assert unseen.total_h_low <= 8.0 and unseen.total_h_high >= 2 * unseen.total_h
+    _, anchored = count_protons(_regions(integrals), anchor_h=8, one_proton_detection_limit=1.5)
+    assert not anchored.lower_bound
+
+
 def test_detection_limit_follows_the_noise():
     """The same spectrum (4-allylanisole's lines, 400 MHz) clean and with the noise of a few
     micrograms: clean, every one-proton signal stands clear and the count is 12 H outright; in the

@@ -45,6 +45,14 @@ def test_name_not_formula_and_units_with_symbols():
     assert "from memory" not in line.next_detail and "varies several-fold" in line.next_detail
 
 
+def test_lower_bound_count_says_at_least():
+    """A count whose one-proton signals could be under the detection limit is shown as a lower bound."""
+    r = _result(verdict="undecided", checks=(), count={"total_h": 12.8, "total_h_low": 11.9, "total_h_high": 29.0, "integer_h": 13, "lower_bound": True})
+    line = well_line(r)
+    assert line.count == "at least 12.8 H"
+    assert "detection limit" in line.count_detail
+
+
 def test_ambiguous_count_is_shown_both_ways():
     r = _result(verdict="consistent", count={"total_h": 7.0, "integer_h": 7, "ambiguous": True, "alternative_totals": [14.0]})
     line = well_line(r)
