@@ -63,6 +63,15 @@ def main() -> None:
         times[workers] = time.perf_counter() - t
         print(f"nmrcheck, {workers} worker(s): {times[workers]:.1f} s for {summary.screened} wells ({summary.verdicts})")
 
+    from nmrcheck.plate.phase_survey import survey_shared_phase
+    from nmrcheck.processing import ProcessingOptions
+
+    t = time.perf_counter()
+    shared = survey_shared_phase(manifest.wells, manifest.directory, ProcessingOptions())
+    survey_s = time.perf_counter() - t
+    found = "; ".join(s.describe() for s in shared) or "no shared value"
+    print(f"phase survey (part of each run above): {survey_s:.1f} s, {survey_s / times[2]:.0%} of the 2-worker run ({found})")
+
     dirs = [root / "plate" / "fids" / w.well / "1" for w in manifest.wells][: args.peer_wells]
     t = time.perf_counter()
     peer(dirs)

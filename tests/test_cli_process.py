@@ -37,6 +37,9 @@ def test_json_fields(experiment):
     assert round(out["total_h"]) == 10  # 1 + 3 + 6 H by construction
     lo, hi = out["total_h_range"]
     assert lo <= 10 <= hi
+    # a clean spectrum: every one-proton signal is seen, so the count is not a lower bound
+    assert isinstance(out["ambiguous"], bool) and isinstance(out["alternative_totals"], list)
+    assert out["lower_bound"] is False
 
 
 def test_exports(experiment, tmp_path):

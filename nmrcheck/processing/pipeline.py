@@ -11,7 +11,7 @@ import numpy as np
 from nmrcheck.errors import ParameterError
 from nmrcheck.io import Fid, SpectrumFile, read_any
 from nmrcheck.processing.baseline import correct_baseline
-from nmrcheck.processing.count import count_protons
+from nmrcheck.processing.count import count_protons, threshold_loss
 from nmrcheck.processing.noise import noise_level
 from nmrcheck.processing.phase import apply_phase, auto_phase, channel_noise, signal_groups
 from nmrcheck.processing.reference import half_height_width_hz, reference_axis
@@ -204,6 +204,17 @@ def one_proton_detection_limit(spectrum: Spectrum, regions, *, noise: float, thr
     return ONE_PROTON_LINES * threshold_snr * noise * np.pi / 2.0 * width_ppm
 
 
+def _threshold_losses(spectrum: Spectrum, regions, *, level: float) -> list[float]:
+    """Per region, the share of its area that may lie under the detection threshold ``level`` (:func:`threshold_loss`)."""
+    y = spectrum.data.real
+    out = []
+    for r in regions:
+        sl = spectrum.slice_of(r.start_ppm, r.end_ppm)
+        peak = float(y[sl].max()) if sl.stop > sl.start else 0.0
+        out.append(threshold_loss(peak / level) if level > 0 else 0.0)
+    return out
+
+
 def snr_of(spectrum: Spectrum, regions, noise: float) -> float:
     """Signal-to-noise ratio: tallest counted analyte point over twice the noise standard deviation.
 
@@ -324,7 +335,8 @@ def process(source: Fid | SpectrumFile | str | os.PathLike, options: ProcessingO
     if any(r.counted for r in regions):
         limit = one_proton_detection_limit(spec, regions, noise=noise, threshold_snr=opts.threshold_snr)
         regions, count = count_protons(regions, integral_sigma=sigmas, anchor_h=opts.anchor_h,
-                                       candidate_h_counts=opts.candidate_h_counts, one_proton_detection_limit=limit)
+                                       candidate_h_counts=opts.candidate_h_counts, one_proton_detection_limit=limit,
+                                       threshold_losses=_threshold_losses(spec, regions, level=opts.threshold_snr * noise))
         if count.lower_bound:
             warnings.append(f"a one-proton multiplet would stay under the detection limit: {count.total_h:.1f} H is a lower "
                             f"bound (range up to {count.total_h_high:.0f} H)")

@@ -52,6 +52,9 @@ def processed_summary(p: Processed) -> dict[str, Any]:
         "integer_h": c.integer_h if c else None,
         "unit_integral": c.unit_integral if c else None,
         "count_method": c.method if c else None,
+        "ambiguous": bool(c.ambiguous) if c else None,
+        "alternative_totals": [_r(t, 2) for t in c.alternative_totals] if c else None,
+        "lower_bound": bool(c.lower_bound) if c else None,
         "warnings": list(p.warnings),
         "history": [s.as_dict() for s in p.spectrum.history],
     }

@@ -25,6 +25,11 @@ def format_processed(summary: dict[str, Any]) -> str:
     if summary["total_h"] is not None:
         lo, hi = summary["total_h_range"]
         lines.append(f"protons     {summary['total_h']:.1f} H (range {lo:.1f}-{hi:.1f}; {summary['integer_h']} by integer regions; {summary['count_method']})")
+        if summary.get("ambiguous"):
+            totals = " or ".join(f"{t:.0f}" for t in summary.get("alternative_totals") or [])
+            lines.append(f"            ambiguous: the integrals fit {totals} H about equally")
+        if summary.get("lower_bound"):
+            lines.append("            at least: a one-proton multiplet would stay under the detection limit")
     else:
         lines.append("protons     no analyte signal above the noise threshold")
     lines.append("")
