@@ -6,9 +6,11 @@ acquisition set agree, their value becomes the centre of a tight prior for every
 set (:mod:`nmrcheck.processing.shared_phase`). Weak wells gain most: their own first-order
 phase wanders when only a few signal groups stand above the noise.
 
-The survey runs in the plate's own process before any worker starts; a recording that cannot
-be read or phased is skipped here (its well reports the problem when it is screened), and the
-survey stops once ``ENOUGH_STRONG`` strong wells are read, or after ``budget_s``, so that a very
+A batch run surveys in the plate's own process before any worker starts; a watch run reads each
+recording once it is complete, before its well is screened, so the wells screened after the first
+strong ones agree use the shared value (the earlier ones are phased on their own). A recording
+that cannot be read or phased is skipped here (its well reports the problem when it is screened),
+and the survey stops once ``ENOUGH_STRONG`` strong wells are read, or after ``budget_s``, so that a very
 large plate is never held up by it. Weak wells are only transformed, not phased.
 """
 
@@ -27,7 +29,7 @@ from nmrcheck.processing.pipeline import phase_reading
 from nmrcheck.processing.shared_phase import STRONG_THIRD_GROUP_SNR, PhaseReading, SharedPhase, shared_first_order
 from nmrcheck.processing.solvents import normalise_solvent
 
-__all__ = ["survey_shared_phase", "SURVEY_BUDGET_S"]
+__all__ = ["PhaseSurvey", "survey_shared_phase", "SURVEY_BUDGET_S", "ENOUGH_STRONG"]
 
 log = logging.getLogger("nmrcheck")
 
@@ -53,6 +55,54 @@ def _reading(spec: WellSpec, directory: str, options: ProcessingOptions) -> Phas
         return None
 
 
+class PhaseSurvey:
+    """Readings collected well by well, and the shared first-order phases they support so far.
+
+    A batch run reads every well at once (:func:`survey_shared_phase`); a watch run reads each
+    well as its recording becomes complete, until the survey is done.
+    """
+
+    def __init__(self, directory: str, options: ProcessingOptions, *, budget_s: float = SURVEY_BUDGET_S) -> None:
+        self._directory = directory
+        self._options = dataclasses.replace(options, shared_p1=None)
+        self._manual = options.phase is not None
+        self._budget_s = budget_s
+        self._spent_s = 0.0
+        self._read: set[str] = set()
+        self._readings: list[PhaseReading] = []
+        self.shared: tuple[SharedPhase, ...] = ()
+
+    @property
+    def done(self) -> bool:
+        """Nothing more to learn: the phase is set by hand, enough strong wells were read, or the time is spent."""
+        strong = sum(r.first_order_fitted and r.third_group_snr >= STRONG_THIRD_GROUP_SNR for r in self._readings)
+        return self._manual or strong >= ENOUGH_STRONG or self._spent_s > self._budget_s
+
+    def read(self, wells: Iterable[WellSpec]) -> tuple[SharedPhase, ...]:
+        """Read the wells not read before (until done) and return the shared phases found so far."""
+        if self._manual:
+            return ()
+        for spec in wells:
+            if self.done:
+                if self._spent_s > self._budget_s:
+                    log.info("phase survey stopped after %.0f s with %d readings", self._budget_s, len(self._readings))
+                break
+            if spec.well in self._read:
+                continue
+            self._read.add(spec.well)
+            started = time.monotonic()
+            reading = _reading(spec, self._directory, self._options)
+            self._spent_s += time.monotonic() - started
+            if reading is not None:
+                self._readings.append(reading)
+        shared = tuple(shared_first_order(self._readings).values())
+        if shared != self.shared:
+            for s in shared:
+                log.info("phase survey: %s", s.describe())
+            self.shared = shared
+        return shared
+
+
 def survey_shared_phase(
     wells: Iterable[WellSpec], directory: str, options: ProcessingOptions, *, budget_s: float = SURVEY_BUDGET_S
 ) -> tuple[SharedPhase, ...]:
@@ -60,23 +110,4 @@ def survey_shared_phase(
 
     Nothing is surveyed when ``options`` fix the phase by hand.
     """
-    if options.phase is not None:
-        return ()
-    options = dataclasses.replace(options, shared_p1=None)
-    started = time.monotonic()
-    readings = []
-    strong = 0
-    for spec in wells:
-        if time.monotonic() - started > budget_s:
-            log.info("phase survey stopped after %.0f s with %d readings", budget_s, len(readings))
-            break
-        reading = _reading(spec, directory, options)
-        if reading is not None:
-            readings.append(reading)
-            strong += reading.first_order_fitted and reading.third_group_snr >= STRONG_THIRD_GROUP_SNR
-            if strong >= ENOUGH_STRONG:
-                break
-    shared = tuple(shared_first_order(readings).values())
-    for s in shared:
-        log.info("phase survey: %s", s.describe())
-    return shared
+    return PhaseSurvey(directory, options, budget_s=budget_s).read(wells)

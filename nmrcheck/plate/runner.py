@@ -29,7 +29,7 @@ from nmrcheck.errors import NmrcheckError, OutputError, ParameterError, human_me
 from nmrcheck.io.completeness import expected_size_reached, has_end_marker, recording_fingerprint
 from nmrcheck.plate.lock import OutputLock
 from nmrcheck.plate.manifest import Manifest, WellSpec, resolve_spectrum
-from nmrcheck.plate.phase_survey import survey_shared_phase
+from nmrcheck.plate.phase_survey import PhaseSurvey
 from nmrcheck.plate.progress import Progress
 from nmrcheck.plate.results import WellResult
 from nmrcheck.plate.screen import ScreenOptions, failure_result, screen_well, well_options_hash
@@ -166,6 +166,10 @@ class _ExecutorBackend:
         self._slots = max(1, slots)
         self._failure = failure
         self._in_flight: dict[cf.Future, tuple[WellSpec, float]] = {}
+
+    def set_options(self, options: ScreenOptions) -> None:
+        """Options for the wells submitted from now on."""
+        self._options = options
 
     def free(self) -> int:
         return max(0, self._slots - len(self._in_flight))
@@ -377,11 +381,11 @@ def run_plate(
         stored = store.fingerprints()
         todo = [s for s in manifest.wells if redo or _needs_screening(s, keys[s.well], stored, directory)]
         skipped = len(manifest.wells) - len(todo)
-        if todo and not options.shared_phase:
+        survey = PhaseSurvey(directory, options.processing)
+        if todo and not options.shared_phase and not watch:
             # Every complete recording informs the shared first-order phase, screened before or not.
-            shared = survey_shared_phase(manifest.wells, directory, options.processing)
-            options = dataclasses.replace(options, shared_phase=shared)
-            run_options["shared_phase"] = [s.describe() for s in shared]
+            options = dataclasses.replace(options, shared_phase=survey.read(manifest.wells))
+            run_options["shared_phase"] = [s.describe() for s in options.shared_phase]
         run_id = store.start_run(manifest=manifest.path, options=run_options, software_version=__version__)
         progress.start(total=len(todo), skipped=skipped, watch=watch)
         if executor is None:
@@ -400,7 +404,8 @@ def run_plate(
         status = "complete"
         try:
             if watch:
-                remaining = _run_watching(backend, store, keys, manifest, todo, store_result, progress, started, time_limit_s, poll_s, quiet_s)
+                remaining = _run_watching(backend, store, keys, manifest, todo, store_result, progress, started, time_limit_s, poll_s, quiet_s,
+                                          survey=None if options.shared_phase else survey, options=options)
                 status = "complete" if not remaining else "stopped"
             else:
                 _run_all(backend, todo, directory, store_result)
@@ -479,8 +484,13 @@ def _ready(spec: WellSpec, directory: str, last_seen: dict[str, Any], quiet_s: f
     return now - seen[1] >= quiet_s
 
 
-def _run_watching(backend, store, keys, manifest, todo, store_result, progress, started, time_limit_s, poll_s, quiet_s):
-    """Screen wells as their recordings become complete; a recording that changes after its result is screened again."""
+def _run_watching(backend, store, keys, manifest, todo, store_result, progress, started, time_limit_s, poll_s, quiet_s, *,
+                  survey: PhaseSurvey | None = None, options: ScreenOptions | None = None):
+    """Screen wells as their recordings become complete; a recording that changes after its result is screened again.
+
+    With ``survey``, each newly complete recording is read for the shared first-order phase before
+    its well is screened; once one is found the wells submitted from then on carry it.
+    """
     directory = manifest.directory
     specs = {s.well: s for s in manifest.wells}
     waiting = {s.well for s in todo}
@@ -505,10 +515,15 @@ def _run_watching(backend, store, keys, manifest, todo, store_result, progress, 
                     log.info("well %s: its recording changed since it was screened; waiting to screen it again", well)
                     del screened[well]
                     waiting.add(well)
-            for well in [w for w in specs if w in waiting]:
-                if _ready(specs[well], directory, last_seen, quiet_s, now):
-                    waiting.discard(well)
-                    queue.append(specs[well])
+            ready = [specs[w] for w in specs if w in waiting and _ready(specs[w], directory, last_seen, quiet_s, now)]
+            for spec in ready:
+                waiting.discard(spec.well)
+                queue.append(spec)
+            if survey is not None and options is not None and ready and not survey.done:
+                shared = survey.read(ready)
+                if shared != options.shared_phase:
+                    options = dataclasses.replace(options, shared_phase=shared)
+                    backend.set_options(options)
             if waiting:
                 progress.waiting(len(waiting))
         while queue and backend.free():

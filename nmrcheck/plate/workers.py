@@ -244,6 +244,10 @@ class LocalPool:
         slot.conn.send((spec, self._directory, self._options, self._limits.memory_text() if self._limits.memory_gb else ""))
 
     # -- the executor-like surface used by the runner
+    def set_options(self, options) -> None:
+        """Options for the wells submitted from now on (each well's task carries them)."""
+        self._options = options
+
     def free(self) -> int:
         return sum(s.spec is None for s in self._slots)
 

@@ -87,3 +87,28 @@ def test_manual_phase_skips_the_survey(tmp_path):
     manifest = _plate(tmp_path / "plate", {f"A{i}": P1 for i in range(1, 5)})
     assert survey_shared_phase(manifest.wells, manifest.directory, ProcessingOptions(phase=(10.0, 0.0))) == ()
     assert len(survey_shared_phase(manifest.wells, manifest.directory, ProcessingOptions())) == 1
+
+
+def test_watch_run_surveys_wells_as_they_become_complete(tmp_path):
+    """In watch mode the survey reads each recording once it is complete; wells submitted after the
+    strong ones agree carry the shared value."""
+    manifest = _plate(tmp_path / "plate", {f"A{i}": P1 for i in range(1, 5)})
+    out = tmp_path / "out"
+    summary = run_plate(manifest, out, executor=InlineExecutor(), watch=True, poll_s=0.1, quiet_s=0.0, time_limit_s=120)
+    assert summary.status == "complete"
+    with ResultsStore(out) as store:
+        current = store.current(with_trace=False)
+    for well in ("B1", "B2"):
+        shared = current[well].processing["options"]["shared_p1"]
+        assert shared is not None and shared[0] == pytest.approx(P1, abs=2.0)
+
+
+def test_survey_stops_after_enough_strong_wells(tmp_path):
+    """Only the first ENOUGH_STRONG strong wells are read (the survey's time stays bounded on large plates)."""
+    from nmrcheck.plate.phase_survey import ENOUGH_STRONG, PhaseSurvey
+
+    manifest = _plate(tmp_path / "plate", {f"A{i}": P1 for i in range(1, ENOUGH_STRONG + 3)}, weak=())
+    survey = PhaseSurvey(manifest.directory, ProcessingOptions())
+    shared = survey.read(manifest.wells)
+    assert survey.done and len(shared) == 1
+    assert len(shared[0].sources) == ENOUGH_STRONG
