@@ -16,11 +16,21 @@ FORMULA = "C8H10O"  # the compound of the small synthetic FIDs (tests/plate/conf
 
 
 def _wells(out):
+    # Read-only, as a report would: a writer's connection would set up the schema and journal mode
+    # and could hold the database while the run itself is opening it.
     try:
-        with ResultsStore(out) as store:
+        with ResultsStore(out, readonly=True) as store:
             return store.current(with_trace=False)
     except Exception:  # noqa: BLE001 - the database may not exist yet
         return {}
+
+
+def _history(out, well):
+    try:
+        with ResultsStore(out, readonly=True) as store:
+            return store.history(well)
+    except Exception:  # noqa: BLE001 - the database may not exist yet
+        return []
 
 
 def _watch_in_thread(manifest, out, **kwargs):
@@ -112,7 +122,7 @@ def test_recording_changed_after_it_was_read_is_read_again(tmp_path, make_fid):
     runner, holder = _watch_in_thread(manifest, out, workers=1, watch=True, poll_s=0.1, quiet_s=0.4, time_limit_s=60)
     _fill_in_blocks(a1 / "fid", data, blocks=4, pause_s=0.05, long_pause_after=1, long_pause_s=2.5)
     deadline = time.monotonic() + 30
-    while len(ResultsStore(out).history("A1")) < 2 and time.monotonic() < deadline:
+    while len(_history(out, "A1")) < 2 and time.monotonic() < deadline:
         time.sleep(0.1)
     write_bruker_fid(make_fid(2), plate / "A2")
     runner.join(timeout=60)
