@@ -110,26 +110,41 @@ def _acme(spec_data: np.ndarray) -> tuple[float, float]:
     return -float(a0), -float(a1)
 
 
+def _references(tool, rec: Path):
+    """(the instrument's spectrum with its SI and LB, or None; the structure's (C-H, exchangeable) H or None)."""
+    try:
+        instrument = tool.instrument_spectrum(str(rec))
+    except SystemExit:
+        instrument = None
+    mol = rec / "structure.mol"
+    return instrument, (_structure_h(mol) if mol.exists() else None)
+
+
+def _phase_error(tool, copy: Path, instrument, p0_deg: float, p1_deg: float, pivot_ppm: float | None = None) -> float:
+    """Largest phase error at the instrument spectrum's strongest peaks when (p0, p1) is applied to the clean twin."""
+    from nmrcheck.io import read_fid
+    from nmrcheck.processing.phase import apply_phase
+    from nmrcheck.processing.transform import fourier_transform
+
+    spectrum, si, lb = instrument
+    clean = fourier_transform(read_fid(copy / "clean"), lb_hz=lb, size=si)
+    ours = apply_phase(clean, p0_deg=p0_deg, p1_deg=p1_deg, pivot_ppm=pivot_ppm)
+    return float(np.abs(tool.phase_errors(ours.data, spectrum, ppm=ours.ppm)[1]).max())
+
+
 def _plate_pass(rows, refdata: Path, levels, seeds, cache: Path, tool, only) -> None:
     """Each recording's copies as one plate: survey the shared first-order phase, process again with it."""
     from nmrcheck.io import read_fid
     from nmrcheck.processing import process
-    from nmrcheck.processing.phase import apply_phase
     from nmrcheck.processing.pipeline import phase_reading
     from nmrcheck.processing.shared_phase import STRONG_THIRD_GROUP_SNR, shared_first_order
-    from nmrcheck.processing.transform import fourier_transform
 
     for rec in _recordings(refdata, only):
         mine = [r for r in rows if r["recording"] == rec.name and "skipped" not in r]
         paths = {(r["snr"], r["seed"]): cache / f"{rec.name}-snr{r['snr']:g}-seed{r['seed']}" for r in mine}
         readings = [phase_reading(read_fid(p / "noisy"), skip_below_snr=STRONG_THIRD_GROUP_SNR) for p in paths.values()]
         shared = next(iter(shared_first_order(readings).values()), None)
-        try:
-            instrument, si, lb = tool.instrument_spectrum(str(rec))
-        except SystemExit:
-            instrument = None
-        mol = rec / "structure.mol"
-        truth = _structure_h(mol) if mol.exists() else None
+        instrument, truth = _references(tool, rec)
         for r in mine:
             if shared is None:
                 for key in ("phase_err", "count_ok"):
@@ -139,9 +154,7 @@ def _plate_pass(rows, refdata: Path, levels, seeds, cache: Path, tool, only) -> 
             copy = paths[(r["snr"], r["seed"])]
             p = process(copy / "noisy", shared_p1=(shared.p1_deg, shared.scale_deg))
             if instrument is not None:
-                clean = fourier_transform(read_fid(copy / "clean"), lb_hz=lb, size=si)
-                ours = apply_phase(clean, p0_deg=p.phase.p0_deg, p1_deg=p.phase.p1_deg, pivot_ppm=p.phase.pivot_ppm)
-                r["plate_phase_err"] = float(np.abs(tool.phase_errors(ours.data, instrument, ppm=ours.ppm)[1]).max())
+                r["plate_phase_err"] = _phase_error(tool, copy, instrument, p.phase.p0_deg, p.phase.p1_deg, p.phase.pivot_ppm)
             if truth is not None:
                 r["plate_count_ok"] = count_in_range(p.count, *truth)
 
@@ -149,7 +162,6 @@ def _plate_pass(rows, refdata: Path, levels, seeds, cache: Path, tool, only) -> 
 def main() -> None:
     from nmrcheck.io import read_fid
     from nmrcheck.processing import process
-    from nmrcheck.processing.phase import apply_phase
     from nmrcheck.processing.transform import fourier_transform
 
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
@@ -175,12 +187,7 @@ def main() -> None:
     rows = []
     clean_axis: dict[str, tuple[float, str]] = {}
     for rec in _recordings(refdata, only):
-        try:
-            instrument, si, lb = tool.instrument_spectrum(str(rec))
-        except SystemExit:
-            instrument = None
-        mol = rec / "structure.mol"
-        truth = _structure_h(mol) if mol.exists() else None
+        instrument, truth = _references(tool, rec)
         for snr in levels:
             for seed in seeds:
                 copy = _noisy_copy(refdata, rec, snr, seed, cache)
@@ -197,15 +204,11 @@ def main() -> None:
                        "p0": p.phase.p0_deg, "p1": p.phase.p1_deg, "phase_method": p.phase.method,
                        "reference": p.reference.kind, "reference_name": p.reference.name}
                 if instrument is not None:
-                    clean_fid = read_fid(copy / "clean")
-                    clean = fourier_transform(clean_fid, lb_hz=lb, size=si)
-                    ours = apply_phase(clean, p0_deg=p.phase.p0_deg, p1_deg=p.phase.p1_deg, pivot_ppm=p.phase.pivot_ppm)
-                    row["phase_err"] = float(np.abs(tool.phase_errors(ours.data, instrument, ppm=ours.ppm)[1]).max())
+                    row["phase_err"] = _phase_error(tool, copy, instrument, p.phase.p0_deg, p.phase.p1_deg, p.phase.pivot_ppm)
                     if not args.no_acme:
                         noisy_spec = fourier_transform(read_fid(copy / "noisy"), lb_hz=0.3)
                         a0, a1 = _acme(noisy_spec.data)
-                        acme = apply_phase(clean, p0_deg=a0, p1_deg=a1)
-                        row["acme_err"] = float(np.abs(tool.phase_errors(acme.data, instrument, ppm=acme.ppm)[1]).max())
+                        row["acme_err"] = _phase_error(tool, copy, instrument, a0, a1)
                 if truth is not None:
                     row["count_ok"] = count_in_range(p.count, *truth)
                     row["ambiguous"] = bool(getattr(p.count, "ambiguous", False))

@@ -72,7 +72,6 @@ def find_regions(
     flagged and not counted.
     """
     y = spectrum.data.real
-    n = y.size
     hz = spectrum.hz_per_point
     name = normalise_solvent(solvent or spectrum.solvent)
     signals: tuple[SolventSignal, ...] = solvent_signals(name) if name else ()
