@@ -23,6 +23,9 @@ class Progress:
     def waiting(self, pending: int) -> None:
         """Watch mode: ``pending`` recordings are not complete yet."""
 
+    def note(self, text: str) -> None:
+        """Something the run learned that concerns every well (e.g. the plate's shared first-order phase)."""
+
     def result(self, result: WellResult, *, done: int, total: int) -> None:
         """One well finished (``done`` of ``total``)."""
 
@@ -53,6 +56,9 @@ class LogProgress(Progress):
         if time.monotonic() - self._last_wait > 60:
             self._last_wait = time.monotonic()
             self._line(f"waiting for {pending} recording(s) to be complete")
+
+    def note(self, text: str) -> None:
+        self._line(text)
 
     def result(self, result: WellResult, *, done: int, total: int) -> None:
         extra = f" ({result.error.splitlines()[0]})" if result.error else ""
@@ -97,6 +103,10 @@ class BarProgress(Progress):
 
     def waiting(self, pending: int) -> None:
         self._pending = pending
+        self._draw()
+
+    def note(self, text: str) -> None:
+        self._write("\r" + text.ljust(100) + "\n")
         self._draw()
 
     def result(self, result: WellResult, *, done: int, total: int) -> None:

@@ -386,6 +386,8 @@ def run_plate(
             # Every complete recording informs the shared first-order phase, screened before or not.
             options = dataclasses.replace(options, shared_phase=survey.read(manifest.wells))
             run_options["shared_phase"] = [s.describe() for s in options.shared_phase]
+            for shared in options.shared_phase:
+                progress.note(f"phase: {shared.describe()}")
         run_id = store.start_run(manifest=manifest.path, options=run_options, software_version=__version__)
         progress.start(total=len(todo), skipped=skipped, watch=watch)
         if executor is None:
@@ -522,8 +524,12 @@ def _run_watching(backend, store, keys, manifest, todo, store_result, progress, 
             if survey is not None and options is not None and ready and not survey.done:
                 shared = survey.read(ready)
                 if shared != options.shared_phase:
+                    known = {v.key for v in options.shared_phase}
                     options = dataclasses.replace(options, shared_phase=shared)
                     backend.set_options(options)
+                    for value in shared:
+                        if value.key not in known:  # said once; later strong wells only refine it
+                            progress.note(f"phase: {value.describe()}")
             if waiting:
                 progress.waiting(len(waiting))
         while queue and backend.free():

@@ -454,8 +454,10 @@ def _well_section(result: WellResult, line: WellLine, index: int, history_len: i
     if proc:
         ref = proc.get("reference") or {}
         phase = proc.get("phase") or {}
+        shared = (proc.get("options") or {}).get("shared_p1")
+        plate_p1 = f" (first order drawn to the plate's shared {_fmt(shared[0], 1)}°)" if isinstance(shared, (list, tuple)) and shared else ""
         pairs.append(("Processing", f"SNR {_fmt(proc.get('snr'), 0)}; solvent {_fmt(proc.get('solvent'))}; axis set by {_fmt(ref.get('name'))} ({_fmt(ref.get('kind'))}); "
-                                    f"phase {_fmt(phase.get('p0_deg'), 1)}° / {_fmt(phase.get('p1_deg'), 1)}°; "
+                                    f"phase {_fmt(phase.get('p0_deg'), 1)}° / {_fmt(phase.get('p1_deg'), 1)}°{plate_p1}; "
                                     f"{_fmt(proc.get('points'))} points at {_fmt(proc.get('spectrometer_mhz'), 2)} MHz"))
     feature = result.ms_feature or {}
     if feature:

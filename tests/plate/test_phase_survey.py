@@ -112,3 +112,18 @@ def test_survey_stops_after_enough_strong_wells(tmp_path):
     shared = survey.read(manifest.wells)
     assert survey.done and len(shared) == 1
     assert len(shared[0].sources) == ENOUGH_STRONG
+
+
+def test_the_run_says_what_first_order_phase_it_found(tmp_path):
+    """The plate's log carries one line naming the shared value before the wells' lines."""
+    import io
+
+    from nmrcheck.plate.progress import LogProgress
+
+    manifest = _plate(tmp_path / "plate", {f"A{i}": P1 for i in range(1, 5)})
+    stream = io.StringIO()
+    run_plate(manifest, tmp_path / "out", executor=InlineExecutor(), progress=LogProgress(stream))
+    lines = stream.getvalue().splitlines()
+    phase_lines = [k for k, line in enumerate(lines) if "phase: first-order phase" in line]
+    assert len(phase_lines) == 1
+    assert phase_lines[0] < min(k for k, line in enumerate(lines) if "] B1:" in line)

@@ -129,3 +129,15 @@ def test_nmredata_record_per_well(report):
     # Every assignment names hydrogens of the structure, at a shift the 1D list holds.
     shifts = {p.shift_ppm for p in rec.spectra["1H"].peaks}
     assert all(a.hydrogen and a.shift_ppm in shifts for a in rec.assignments)
+
+
+def test_wells_say_when_they_used_the_plates_first_order_phase(report):
+    """The demo plate's wells share one first-order phase (nmrcheck.demo.DEMO_P1_DEG): the run finds
+    it and each well's processing line says it was drawn to it."""
+    _, out, path = report
+    html = path.read_text(encoding="utf-8")
+    with ResultsStore(out, readonly=True) as store:
+        processed = {w: r for w, r in store.current(with_trace=False).items() if r.processing}
+    used = [w for w, r in processed.items() if r.processing["options"].get("shared_p1")]
+    assert processed and len(used) == len(processed)
+    assert html.count("first order drawn to the plate&#x27;s shared") + html.count("first order drawn to the plate's shared") >= len(used)
