@@ -30,7 +30,7 @@ __all__ = ["AcquisitionKey", "PhaseReading", "SharedPhase", "acquisition_key", "
            "SHARED_P1_SCALE_DEG", "SHARED_P1_PRIOR_WEIGHT", "STRONG_THIRD_GROUP_SNR"]
 
 #: A recording is strong when its third-tallest signal group stands this many noise standard deviations
-#: high (about SNR 70 by the height-over-two-sigma convention). Measured on the same copies: 100, 150 and
+#: high (about SNR 75 by the height-over-two-sigma convention). Measured on the same copies: 100, 150 and
 #: 200 give the same figures within one or two spectra.
 STRONG_THIRD_GROUP_SNR = 150.0
 
