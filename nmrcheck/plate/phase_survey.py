@@ -75,7 +75,7 @@ class PhaseSurvey:
     @property
     def done(self) -> bool:
         """Nothing more to learn: the phase is set by hand, enough strong wells were read, or the time is spent."""
-        strong = sum(r.first_order_fitted and r.third_group_snr >= STRONG_THIRD_GROUP_SNR for r in self._readings)
+        strong = sum(r.is_strong() for r in self._readings)
         return self._manual or strong >= ENOUGH_STRONG or self._spent_s > self._budget_s
 
     def read(self, wells: Iterable[WellSpec]) -> tuple[SharedPhase, ...]:

@@ -225,6 +225,13 @@ def snr_of(spectrum: Spectrum, regions, noise: float) -> float:
     return best / (2.0 * noise) if noise > 0 else 0.0
 
 
+def _with_solvent(spectrum: Spectrum, options: ProcessingOptions) -> Spectrum:
+    """``spectrum`` with the solvent the options name in place of the file's (unchanged without one)."""
+    if not options.solvent:
+        return spectrum
+    return replace(spectrum, acquisition=replace(spectrum.acquisition, solvent=normalise_solvent(options.solvent)))
+
+
 def _prior_of(options: ProcessingOptions) -> dict[str, float]:
     """auto_phase's first-order prior for ``options``: the shared value when given, else its defaults."""
     if options.shared_p1 is None:
@@ -241,9 +248,7 @@ def phase_reading(fid: Fid, options: ProcessingOptions | None = None, *, skip_be
     standard deviations is not phased (it could not count as strong): its reading says so.
     """
     opts = options or ProcessingOptions()
-    spec = fourier_transform(fid, lb_hz=opts.lb_hz, size=opts.size)
-    if opts.solvent:
-        spec = replace(spec, acquisition=replace(spec.acquisition, solvent=normalise_solvent(opts.solvent)))
+    spec = _with_solvent(fourier_transform(fid, lb_hz=opts.lb_hz, size=opts.size), opts)
     exclude = phasing_exclusion(spec, opts)
     heights = sorted((g.height for g in signal_groups(spec, exclude_ppm=exclude)), reverse=True)
     noise = channel_noise(spec.data)
@@ -279,8 +284,7 @@ def process(source: Fid | SpectrumFile | str | os.PathLike, options: ProcessingO
     else:
         spec = spectrum_from_file(record)
         already_phased = not opts.rephase_processed
-    if opts.solvent:
-        spec = replace(spec, acquisition=replace(spec.acquisition, solvent=normalise_solvent(opts.solvent)))
+    spec = _with_solvent(spec, opts)
     exclude = _suppression_ranges(spec, opts)
     if opts.phase is not None:
         p0, p1 = opts.phase

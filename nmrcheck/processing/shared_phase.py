@@ -35,8 +35,8 @@ __all__ = ["AcquisitionKey", "PhaseReading", "SharedPhase", "acquisition_key", "
 STRONG_THIRD_GROUP_SNR = 150.0
 
 #: Scale (deg) and weight of the prior a weak well's first-order phase gets about the shared value.
-#: Measured on the shared recordings' noisy copies, each recording's SNR-300 copies standing in for
-#: the strong wells of its plate (bench/bench_microgram.py, column "plate p1"); the weight is per unit
+#: Measured on the shared recordings' noisy copies, each recording's copies at SNR 300, 100 and 30
+#: standing in for the wells of one plate (bench/bench_microgram.py, column "plate p1"); the weight is per unit
 #: of signal-group weight, ten times the lone spectrum's prior, the scale a sixth of it.
 SHARED_P1_SCALE_DEG = 10.0
 SHARED_P1_PRIOR_WEIGHT = 0.02
@@ -67,6 +67,10 @@ class PhaseReading:
     third_group_snr: float
     """Height of the third-tallest signal group over the noise standard deviation: a first-order
     phase is fixed by groups spread over the width, and only well clear of the noise."""
+
+    def is_strong(self, min_third_group_snr: float = STRONG_THIRD_GROUP_SNR) -> bool:
+        """Fitted its own first-order phase from groups well clear of the noise."""
+        return self.first_order_fitted and self.third_group_snr >= min_third_group_snr and bool(np.isfinite(self.p1_deg))
 
 
 @dataclass(frozen=True)
@@ -129,7 +133,7 @@ def shared_first_order(
         raise ParameterError(f"max_spread_deg: must be positive, got {max_spread_deg!r}")
     strong: dict[AcquisitionKey, list[PhaseReading]] = defaultdict(list)
     for r in readings:
-        if r.first_order_fitted and r.third_group_snr >= min_third_group_snr and np.isfinite(r.p1_deg):
+        if r.is_strong(min_third_group_snr):
             strong[r.key].append(r)
     out = {}
     for key, rs in sorted(strong.items()):
