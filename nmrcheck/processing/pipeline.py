@@ -14,9 +14,9 @@ from nmrcheck.processing.baseline import correct_baseline
 from nmrcheck.processing.count import count_protons, threshold_loss
 from nmrcheck.processing.noise import noise_level
 from nmrcheck.processing.phase import apply_phase, auto_phase, channel_noise, signal_groups
-from nmrcheck.processing.reference import half_height_width_hz, reference_axis
+from nmrcheck.processing.reference import half_height_width_hz, reference_axis, solvent_from_spectrum
 from nmrcheck.processing.regions import find_regions
-from nmrcheck.processing.results import PhaseCorrection, Processed
+from nmrcheck.processing.results import PhaseCorrection, Processed, Reference
 from nmrcheck.processing.shared_phase import SHARED_P1_PRIOR_WEIGHT, PhaseReading, acquisition_key
 from nmrcheck.processing.solvents import AQUEOUS, normalise_solvent
 from nmrcheck.processing.spectrum import ProcessingStep, Spectrum
@@ -232,6 +232,30 @@ def _with_solvent(spectrum: Spectrum, options: ProcessingOptions) -> Spectrum:
     return replace(spectrum, acquisition=replace(spectrum.acquisition, solvent=normalise_solvent(options.solvent)))
 
 
+def _solvent_the_spectrum_shows(spec: Spectrum, ref: Reference, opts: ProcessingOptions) -> tuple[Spectrum, Reference, str | None]:
+    """When the file's solvent left no residual line, the organic solvent whose residual pattern is there.
+
+    Returns the spectrum carrying that solvent and referenced to it, its reference and a note;
+    or the spectrum and its (empty) reference ``ref`` unchanged and no note. A water-suppressed aqueous sample
+    is never re-labelled: its HDO line is bleached by design.
+    """
+    file_solvent = normalise_solvent(spec.solvent)
+    unchanged = spec, ref, None
+    if file_solvent in AQUEOUS:
+        return unchanged
+    seen = solvent_from_spectrum(spec, besides=file_solvent)
+    if seen is None:
+        return unchanged
+    relabelled = replace(spec, acquisition=replace(spec.acquisition, solvent=seen.solvent))
+    moved, found = reference_axis(relabelled, prefer=opts.reference)
+    if found.kind == "none":
+        return unchanged
+    said = f"the file says {spec.solvent}" if spec.solvent else "the file names no solvent"
+    note = (f"solvent read from the spectrum: {said}, but {seen.line} shows at {seen.found_ppm:.2f} ppm "
+            f"({seen.pattern}); processed as {seen.solvent}")
+    return moved, found, note
+
+
 def _prior_of(options: ProcessingOptions) -> dict[str, float]:
     """auto_phase's first-order prior for ``options``: the shared value when given, else its defaults."""
     if options.shared_p1 is None:
@@ -298,6 +322,10 @@ def process(source: Fid | SpectrumFile | str | os.PathLike, options: ProcessingO
             warnings.append("no peak above noise to phase on; spectrum left unphased")
     spec = correct_baseline(spec, method=opts.baseline, smoothness_hz=opts.baseline_smoothness_hz)
     spec, ref = reference_axis(spec, solvent=opts.solvent, prefer=opts.reference)
+    if ref.kind == "none" and opts.solvent is None and opts.reference in ("auto", "solvent"):
+        spec, ref, note = _solvent_the_spectrum_shows(spec, ref, opts)
+        if note:
+            warnings.append(note)
     if ref.kind == "none":
         warnings.append(f"axis not referenced: {ref.name}")
     else:

@@ -2,14 +2,16 @@
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 
 from nmrcheck.processing.noise import noise_level
 from nmrcheck.processing.results import Reference
-from nmrcheck.processing.solvents import AQUEOUS, normalise_solvent, solvent_signals
+from nmrcheck.processing.solvents import AQUEOUS, known_solvents, normalise_solvent, solvent_signals
 from nmrcheck.processing.spectrum import ProcessingStep, Spectrum
 
-__all__ = ["find_peak", "reference_axis"]
+__all__ = ["SolventSeen", "find_peak", "find_water_singlet", "reference_axis", "solvent_from_spectrum"]
 
 #: A singlet reference line has no partner of comparable height within the range of
 #: common 1H-1H couplings (up to about 18 Hz geminal/trans; common practice).
@@ -190,11 +192,15 @@ def looks_like_quintet(spectrum: Spectrum, i: int, *, resolved_only: bool = Fals
     0.32 of its top 2.2 and 4.4 Hz out), and the top of an analyte multiplet is flat.
     """
     j, first, second = quintet_ratios(spectrum, i)
+    far_l, dip2_l, near_l, dip1_l, dip1_r, near_r, dip2_r, far_r = _quintet_sides(spectrum, i, j)
+    # The centre line is the quintet's tallest: an outer or inner line has a taller partner a
+    # coupling away on one side (and passes the mean-height tests below on that side alone).
+    if max(near_l, near_r, far_l, far_r) > 1.05:
+        return False
     resolved = 0.4 <= first <= 0.9 and 0.12 <= second <= 0.6 and second < first
     if resolved_only:
         if not resolved:
             return False
-        far_l, dip2_l, near_l, dip1_l, dip1_r, near_r, dip2_r, far_r = _quintet_sides(spectrum, i, j)
         symmetric = (min(near_l, near_r, far_l, far_r) > 0
                      and max(near_l, near_r) <= 1.5 * min(near_l, near_r)
                      and max(far_l, far_r) <= 1.5 * min(far_l, far_r))
@@ -268,6 +274,104 @@ def find_peak(
     return None
 
 
+def _sharp_hz(spectrum: Spectrum) -> float:
+    """Widest half-height width of a sharp singlet after the transform's line broadening, Hz."""
+    lb = float(next((st.params.get("lb_hz", 0.0) for st in spectrum.history if st.name == "fourier_transform"), 0.0))
+    return 2.5 + 2.0 * max(lb, 0.0)
+
+
+@dataclass(frozen=True)
+class SolventSeen:
+    """A solvent recognised in the spectrum by the pattern of its residual lines."""
+
+    solvent: str
+    line: str
+    """The residual line that was seen (e.g. 'DMSO-d5')."""
+    found_ppm: float
+    pattern: str
+    """How it was recognised, in words."""
+
+
+#: Residual patterns that name their solvent without help from the file: a resolved CHD2
+#: quintet (1:2:3:2:1, J(H,D) about 2 Hz), a singlet carrying its 13C satellites, or a CHD2
+#: line broadened past resolving whose solvent's water line stands beside it.
+_SELF_EVIDENT = {"quint": "resolved 1:2:3:2:1 quintet", "s": "singlet with its 13C satellites"}
+_BROAD_QUINTET = "broadened quintet, with the solvent's water line"
+#: Water in organic solvents: a singlet (exchange-broadened, up to about 10 Hz wide) that moves
+#: with temperature and concentration by about 0.15 ppm about its table position (Gottlieb 1997,
+#: from memory; common practice). A line of a multiplet has partners at the coupling constant
+#: (within 8 Hz for the common vicinal couplings); water has none.
+WATER_WINDOW_PPM = 0.15
+WATER_MAX_WIDTH_HZ = 10.0
+WATER_ISOLATION_HZ = 8.0
+
+
+def find_water_singlet(spectrum: Spectrum, ppm: float, *, min_snr: float = 10.0) -> float | None:
+    """Shift of a water singlet within :data:`WATER_WINDOW_PPM` of ``ppm``, or None when no singlet stands there."""
+    return find_peak(spectrum, ppm, window_ppm=WATER_WINDOW_PPM, min_snr=min_snr,
+                     max_width_hz=WATER_MAX_WIDTH_HZ, isolated_hz=WATER_ISOLATION_HZ)
+
+
+def _any_line(spectrum: Spectrum, ppm: float, *, window_ppm: float, min_snr: float) -> bool:
+    """Some local maximum over ``min_snr`` x noise within ``window_ppm`` of ``ppm``."""
+    y = spectrum.data.real
+    sl = spectrum.slice_of(ppm + window_ppm, ppm - window_ppm)
+    seg = y[sl]
+    floor = min_snr * noise_level(y)
+    return bool(seg.size >= 3 and np.any((seg[1:-1] >= seg[:-2]) & (seg[1:-1] > seg[2:]) & (seg[1:-1] > floor)))
+
+
+def _residual_seen(spectrum: Spectrum, name: str, sig, *, min_snr: float, sharp: float) -> tuple[float, str] | None:
+    """(where, how) the residual line ``sig`` of solvent ``name`` shows its own pattern, or None."""
+    singlet = sig.multiplicity == "s"
+    width = sharp if singlet else sharp + MULTIPLET_EXTRA_WIDTH_HZ
+    at = find_peak(spectrum, sig.ppm, window_ppm=CLOSE_PPM, min_snr=min_snr, max_width_hz=width,
+                   isolated_hz=SINGLET_ISOLATION_HZ if singlet else None, pattern=sig.multiplicity, far=True)
+    if at is not None:
+        return at, _SELF_EVIDENT[sig.multiplicity]
+    if singlet:
+        return None
+    at = find_peak(spectrum, sig.ppm, window_ppm=CLOSE_PPM, min_snr=min_snr, max_width_hz=width, pattern="quint")
+    water = solvent_signals(name, kind="water")
+    if at is None or not water:
+        return None
+    # The water singlet sits near where the table puts it on the axis the residual sets.
+    if find_water_singlet(spectrum, water[0].ppm + (at - sig.ppm), min_snr=min_snr) is not None:
+        return at, _BROAD_QUINTET
+    return None
+
+
+def solvent_from_spectrum(spectrum: Spectrum, *, besides: str | None = None, min_snr: float = 10.0) -> SolventSeen | None:
+    """The one organic solvent whose residual lines the spectrum shows by their pattern, or None.
+
+    For a file whose own solvent (``besides``) left no residual line (a solvent field left at
+    the last sample's value is common). Nothing is guessed while any line stands where the
+    file's residual should be: the file may be right. A solvent counts as seen when every
+    residual line of its table shows its pattern within :data:`CLOSE_PPM` of the table value:
+    a resolved, symmetric CHD2 quintet; a CHD2 line too broad to resolve together with the
+    solvent's water line (hygroscopic solvents always hold some); a singlet with its 13C
+    satellites. Solvents whose residual is a triplet or an unresolved multiplet are never
+    guessed. When no solvent or more than one is seen, the answer is None: the caller keeps
+    the spectrometer's axis.
+    """
+    if besides is not None and any(_any_line(spectrum, sig.ppm, window_ppm=CLOSE_PPM, min_snr=min_snr)
+                                   for sig in solvent_signals(besides, kind="residual")):
+        return None
+    sharp = _sharp_hz(spectrum)
+    seen: list[SolventSeen] = []
+    for name in known_solvents():
+        if name == besides or name in AQUEOUS:
+            continue
+        rows = solvent_signals(name, kind="residual")
+        if not rows or any(sig.multiplicity not in _SELF_EVIDENT for sig in rows):
+            continue
+        found = [(sig, _residual_seen(spectrum, name, sig, min_snr=min_snr, sharp=sharp)) for sig in rows]
+        if all(hit is not None for _, hit in found):
+            sig, (at, how) = max(found, key=lambda f: f[0].protons)
+            seen.append(SolventSeen(name, sig.name, at, how))
+    return seen[0] if len(seen) == 1 else None
+
+
 def reference_axis(
     spectrum: Spectrum,
     *,
@@ -291,8 +395,7 @@ def reference_axis(
     if prefer == "none" or name is None:
         why = "none" if prefer == "none" else f"none (solvent {solvent or spectrum.solvent!r} unknown)"
         return spectrum, Reference("none", why, spectrum.first_ppm, None, "")
-    lb = float(next((st.params.get("lb_hz", 0.0) for st in spectrum.history if st.name == "fourier_transform"), 0.0))
-    sharp = 2.5 + 2.0 * max(lb, 0.0)
+    sharp = _sharp_hz(spectrum)
     standard = None
     if prefer in ("auto", "standard"):
         for sig in solvent_signals(name, kind="reference"):

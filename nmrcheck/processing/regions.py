@@ -8,6 +8,7 @@ from typing import Sequence
 import numpy as np
 from scipy.ndimage import maximum_filter1d, uniform_filter1d
 
+from nmrcheck.processing.reference import WATER_WINDOW_PPM, find_water_singlet
 from nmrcheck.processing.results import Region
 from nmrcheck.processing.solvents import AQUEOUS, SolventSignal, normalise_solvent, solvent_signals
 from nmrcheck.processing.spectrum import Spectrum
@@ -99,7 +100,7 @@ def find_regions(
     water_modelled = False
     if name not in AQUEOUS:
         for water in (sig for sig in signals if sig.kind == "water" and sig.multiplicity == "s"):
-            at = _water_line(spectrum, water.ppm, noise)
+            at = find_water_singlet(spectrum, water.ppm)
             model = None if at is None else _singlet_model(spectrum, at, tol_ppm=0.003)
             if model is None:
                 continue
@@ -352,25 +353,6 @@ def _close(mask: np.ndarray, width: int) -> np.ndarray:
     """Morphological closing: fill gaps shorter than ``width`` points."""
     grown = maximum_filter1d(mask.astype(np.uint8), size=width)
     return ~maximum_filter1d((~grown.astype(bool)).astype(np.uint8), size=width).astype(bool)
-
-
-#: Water in organic solvents: a singlet (exchange-broadened, up to about 10 Hz wide) that moves
-#: with temperature and concentration by about 0.15 ppm about its table position (Gottlieb 1997,
-#: from memory; common practice).
-WATER_WINDOW_PPM = 0.15
-WATER_MAX_WIDTH_HZ = 10.0
-
-
-def _water_line(spectrum: Spectrum, table_ppm: float, noise: float) -> float | None:
-    """Shift of the water singlet near its table position, or None when no singlet stands there.
-
-    A line of a multiplet has partners at the coupling constant; water has none. The
-    singlet must be sharp enough, isolated within 8 Hz and clear of the noise.
-    """
-    from nmrcheck.processing.reference import find_peak
-
-    return find_peak(spectrum, table_ppm, window_ppm=WATER_WINDOW_PPM, min_snr=10.0,
-                     max_width_hz=WATER_MAX_WIDTH_HZ, isolated_hz=8.0)
 
 
 def _flag(start, end, peak, signals, reference_name, exclude_ppm, tol, mhz, *, water_modelled=False):

@@ -177,3 +177,97 @@ def test_carbon_satellite_of_dss_is_never_taken_for_dss():
     _, ref = reference_axis(spec)
     assert ref.kind == "DSS"
     assert ref.found_ppm == pytest.approx(-0.09, abs=0.005)
+
+
+# --- the solvent a spectrum shows when its file names another ------------------------------
+
+def _chd2_quintet(ppm, h, *, j_hz=1.9, width_hz=0.6, mhz=400.0):
+    """A CHD2 residual's 1:2:3:2:1 lines (J(H,D) about 1.9 Hz for DMSO-d5; Gottlieb 1997, from memory)."""
+    from nmrcheck.synth import Line
+
+    return [Line(ppm + k * j_hz / mhz, h * w / 9.0, width_hz) for k, w in zip((-2, -1, 0, 1, 2), (1, 2, 3, 2, 1))]
+
+
+def _analyte():
+    from nmrcheck.synth import Line
+
+    # An aromatic pair (J 8.5 Hz) and a methoxy singlet: nothing near any residual's table value.
+    return [Line(7.95, 1.0, 0.8, (8.5,)), Line(6.90, 1.0, 0.8, (8.5,)), Line(3.85, 3.0, 0.8)]
+
+
+def test_dmso_quintet_in_a_file_that_says_cdcl3():
+    """DMSO-d5 at 2.50 ppm, a resolved quintet, and no CHCl3 at 7.26 (Gottlieb 1997, from memory):
+    the spectrum is DMSO-d6 whatever the file says."""
+    from nmrcheck.processing.reference import solvent_from_spectrum
+
+    spec = _spectrum_with(_chd2_quintet(2.50, 0.3) + _analyte(), solvent="CDCl3")
+    seen = solvent_from_spectrum(spec, besides="CDCl3")
+    assert seen is not None and (seen.solvent, seen.line) == ("DMSO-d6", "DMSO-d5")
+    assert seen.found_ppm == pytest.approx(2.50, abs=0.003)
+
+
+def test_a_broadened_quintet_counts_only_with_its_water_line():
+    """A DMSO-d5 line broadened past resolving (6 Hz) could be any broad line; DMSO's water at 3.33 ppm
+    (Gottlieb 1997, from memory; hygroscopic solvent, common practice) beside it makes it DMSO."""
+    from nmrcheck.processing.reference import solvent_from_spectrum
+    from nmrcheck.synth import Line
+
+    broad = [Line(2.50, 0.3, 6.0)]
+    assert solvent_from_spectrum(_spectrum_with(broad + _analyte(), solvent="CDCl3"), besides="CDCl3") is None
+    water = [Line(3.36, 0.6, 3.0)]
+    seen = solvent_from_spectrum(_spectrum_with(broad + water + _analyte(), solvent="CDCl3"), besides="CDCl3")
+    assert seen is not None and seen.solvent == "DMSO-d6" and "water" in seen.pattern
+
+
+def test_nothing_is_guessed_while_a_line_stands_at_the_files_residual():
+    """A line 0.01 ppm from CHCl3's 7.26 ppm (here an analyte doublet) may hide the file's own residual:
+    the file is not overruled, quintet or not."""
+    from nmrcheck.processing.reference import solvent_from_spectrum
+    from nmrcheck.synth import Line
+
+    spec = _spectrum_with(_chd2_quintet(2.50, 0.3) + _analyte() + [Line(7.27, 1.0, 0.8, (8.5,))], solvent="CDCl3")
+    assert solvent_from_spectrum(spec, besides="CDCl3") is None
+
+
+def test_sharp_analyte_singlets_at_residual_and_water_positions_are_no_solvent():
+    """An aryl methyl at 2.50 ppm and a methoxy at 3.33 ppm (sharp singlets, 0.8 Hz) are not a CHD2
+    line and its water: a singlet falls to a few percent 2 Hz out, a quintet's lines stand at 2/3."""
+    from nmrcheck.processing.reference import solvent_from_spectrum
+    from nmrcheck.synth import Line
+
+    spec = _spectrum_with([Line(2.50, 3.0, 0.8), Line(3.33, 3.0, 0.8), Line(7.95, 1.0, 0.8, (8.5,))], solvent="CDCl3")
+    assert solvent_from_spectrum(spec, besides="CDCl3") is None
+
+
+def test_one_quintet_that_two_solvents_could_own_names_neither():
+    """Acetone-d5 (2.05 ppm) and toluene-d8's CHD2 (2.08 ppm) are both quintets (Gottlieb 1997, from
+    memory): a quintet at 2.065 ppm fits both, so no solvent is named."""
+    from nmrcheck.processing.reference import solvent_from_spectrum
+
+    spec = _spectrum_with(_chd2_quintet(2.065, 0.3, j_hz=2.2) + _analyte(), solvent="CDCl3")
+    assert solvent_from_spectrum(spec, besides="CDCl3") is None
+
+
+def test_process_reads_the_solvent_from_the_spectrum_and_says_so():
+    """The whole processor: a file that says CDCl3 holding DMSO-d6 is referenced on DMSO-d5 (2.50 ppm),
+    its water (3.33 ppm) is flagged, the spectrum carries DMSO-d6 downstream, and a warning says why.
+    A water-suppressed D2O file is never relabelled (its HDO line is bleached by design)."""
+    from nmrcheck.processing import process
+    from nmrcheck.synth import Line, simulate_fid
+
+    lines = _chd2_quintet(2.50, 0.3) + [Line(3.33, 0.6, 3.0)] + _analyte()
+    offset = 0.02  # the spectrometer axis a little off; a solvent is named only within 0.03 ppm of its table value
+    fid = simulate_fid([Line(l.ppm + offset, l.h, l.width_hz, l.j_hz) for l in lines], spectrometer_mhz=400.0,
+                       sweep_width_hz=4800.0, points=65536, carrier_ppm=4.5, noise=2e-4, seed=3, solvent="CDCl3")
+    p = process(fid)
+    assert p.spectrum.solvent == "DMSO-d6"
+    assert (p.reference.line, p.reference.ppm) == ("DMSO-d5", 2.50)
+    assert p.reference.found_ppm == pytest.approx(2.50 + offset, abs=0.005)
+    assert any("solvent read from the spectrum" in w and "CDCl3" in w for w in p.warnings)
+    assert any(r.flag == "water" for r in p.regions if r.start_ppm >= 3.33 >= r.end_ppm)
+    assert p.count is not None and p.count.total_h == pytest.approx(5.0, abs=0.3)
+    fid = simulate_fid(lines, spectrometer_mhz=400.0, sweep_width_hz=4800.0, points=65536, carrier_ppm=4.5,
+                       noise=2e-4, seed=3, solvent="D2O")
+    p = process(fid)
+    assert p.spectrum.solvent == "D2O" and p.reference.kind == "none"
+    assert not any("solvent read from the spectrum" in w for w in p.warnings)

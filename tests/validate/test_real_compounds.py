@@ -129,7 +129,6 @@ def test_other_compound_of_similar_mass_is_not_consistent(recordings, name, with
 #: True formula (no structure) 'inconsistent' from the spectrum alone, measured: why.
 TRUE_FORMULA_MISSES = {
     "2759-55-9": "the broad water line at 1.65 ppm (off its 1.56 table position) is counted and reads 0.57 H at 13 H",
-    "517920-70-6": "lines at 3.36 and 2.51 ppm (water and DMSO-d5, though the header says CDCl3) read 0.61 H at 4 H",
 }
 
 
