@@ -504,7 +504,7 @@ def auto_phase(
     min_groups_for_p1: int = 3,
     use_group_integrals: bool = True,
     max_peaks: int = 40,
-    min_snr: float = 20.0,
+    min_snr: float = 14.0,
     reach_linewidths: float = 40.0,
     max_reach_hz: float = 80.0,
     refine_p0_deg: float = 30.0,
@@ -552,7 +552,15 @@ def auto_phase(
         Peaks read by the first estimate.
     min_snr : float
         Smallest peak height (and, for signal groups, prominence) of the
-        magnitude, in noise standard deviations of one quadrature channel.
+        magnitude, in noise standard deviations of one quadrature channel. At
+        microgram signal it decides how many groups pin the first-order phase: with
+        20, spectra at SNR 30 kept one to three groups, and their p1 either wandered
+        or was held at zero. Measured on the shared recordings' noisy copies
+        (bench/bench_microgram.py): at SNR 30, 40, 41, 45, 46 and 43-45 of 54 within
+        5 deg for 20, 16, 14, 12 and 10; at SNR 100, 42-44 of 51 within 3 deg for all
+        of them; clean spectra 18/18 within 3 deg down to 12 (one lost at 10, where
+        artefacts of very strong lines start to count as groups). 14 is the middle of
+        the good stretch.
     reach_linewidths, max_reach_hz : float
         Extent of a signal group beyond each line (see :func:`signal_groups`).
     refine_p0_deg, refine_p1_deg : float
