@@ -271,3 +271,21 @@ def test_process_reads_the_solvent_from_the_spectrum_and_says_so():
     p = process(fid)
     assert p.spectrum.solvent == "D2O" and p.reference.kind == "none"
     assert not any("solvent read from the spectrum" in w for w in p.warnings)
+
+
+def test_chcl3_with_its_satellites_in_a_file_that_says_dmso():
+    """CHCl3 at 7.26 ppm (Gottlieb 1997, from memory) with its 13C satellites at +-104.5 Hz
+    (1J(C,H) 209 Hz, 0.55 % each; common practice) and no DMSO-d5 at 2.50 ppm: the spectrum is
+    CDCl3. Without the satellites a singlet at 7.26 could be an analyte's: nothing is named."""
+    from nmrcheck.processing.reference import solvent_from_spectrum
+    from nmrcheck.synth import Line
+
+    mhz = 400.0
+    chcl3 = [Line(7.26, 1.0, 0.6)]
+    satellites = [Line(7.26 + s * 104.5 / mhz, 0.0055, 0.6) for s in (-1, 1)]
+    spec = _spectrum_with(chcl3 + satellites + _analyte(), solvent="DMSO-d6", mhz=mhz, noise=5e-5)
+    seen = solvent_from_spectrum(spec, besides="DMSO-d6")
+    assert seen is not None and (seen.solvent, seen.line) == ("CDCl3", "CHCl3")
+    assert "satellites" in seen.pattern
+    spec = _spectrum_with(chcl3 + _analyte(), solvent="DMSO-d6", mhz=mhz, noise=5e-5)
+    assert solvent_from_spectrum(spec, besides="DMSO-d6") is None
