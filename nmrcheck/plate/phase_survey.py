@@ -8,7 +8,8 @@ phase wanders when only a few signal groups stand above the noise.
 
 A batch run surveys in the plate's own process before any worker starts; a watch run reads each
 recording once it is complete, before its well is screened, so the wells screened after the first
-strong ones agree use the shared value (the earlier ones are phased on their own). A recording
+strong ones agree use the shared value, and the wells of that acquisition set screened earlier in
+the run are screened again with it. A recording
 that cannot be read or phased is skipped here (its well reports the problem when it is screened),
 and the survey stops once ``ENOUGH_STRONG`` strong wells are read, or after ``budget_s``, so that a very
 large plate is never held up by it. Weak wells are only transformed, not phased.
@@ -77,6 +78,10 @@ class PhaseSurvey:
         """Nothing more to learn: the phase is set by hand, enough strong wells were read, or the time is spent."""
         strong = sum(r.is_strong() for r in self._readings)
         return self._manual or strong >= ENOUGH_STRONG or self._spent_s > self._budget_s
+
+    def wells_of(self, shared: SharedPhase) -> frozenset[str]:
+        """The wells read so far whose recordings belong to ``shared``'s acquisition set."""
+        return frozenset(r.source for r in self._readings if r.key == shared.key and r.source)
 
     def read(self, wells: Iterable[WellSpec]) -> tuple[SharedPhase, ...]:
         """Read the wells not read before (until done) and return the shared phases found so far."""

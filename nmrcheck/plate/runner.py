@@ -491,7 +491,9 @@ def _run_watching(backend, store, keys, manifest, todo, store_result, progress, 
     """Screen wells as their recordings become complete; a recording that changes after its result is screened again.
 
     With ``survey``, each newly complete recording is read for the shared first-order phase before
-    its well is screened; once one is found the wells submitted from then on carry it.
+    its well is screened; once one is found the wells submitted from then on carry it, and the wells
+    of its acquisition set that this run screened without it are screened again with it (a well in
+    a worker at that moment once its result is stored).
     """
     directory = manifest.directory
     specs = {s.well: s for s in manifest.wells}
@@ -505,6 +507,9 @@ def _run_watching(backend, store, keys, manifest, todo, store_result, progress, 
                 screened[well] = fp
     queue: deque[WellSpec] = deque()
     submitted: dict[str, str | None] = {}
+    # Per well screened or submitted in this run: the acquisition sets whose shared phase it carried.
+    carried: dict[str, frozenset] = {}
+    again: set[str] = set()  # in a worker without the shared value: screened again once stored
     last_seen: dict[str, Any] = {}
     next_look = 0.0
     while True:
@@ -530,11 +535,22 @@ def _run_watching(backend, store, keys, manifest, todo, store_result, progress, 
                     for value in shared:
                         if value.key not in known:  # said once; later strong wells only refine it
                             progress.note(f"phase: {value.describe()}")
+                            redo = _screened_without(value, survey.wells_of(value), carried, screened, submitted)
+                            for well in redo:
+                                if well in submitted:
+                                    again.add(well)
+                                else:
+                                    del screened[well]
+                                    queue.append(specs[well])
+                            if redo:
+                                progress.note(f"phase: {len(redo)} well(s) screened before it was found are screened again with it")
             if waiting:
                 progress.waiting(len(waiting))
         while queue and backend.free():
             spec = queue.popleft()
             submitted[spec.well] = _fingerprint_of(spec, directory)
+            if options is not None:
+                carried[spec.well] = frozenset(v.key for v in options.shared_phase)
             backend.submit(spec)
         if not (waiting or queue or backend.busy()):
             break
@@ -544,8 +560,17 @@ def _run_watching(backend, store, keys, manifest, todo, store_result, progress, 
         for spec, result in backend.poll(wait_s):
             fp = submitted.pop(spec.well, None)
             store_result(spec, result, fp)
-            screened[spec.well] = fp or ABSENT
+            if spec.well in again:
+                again.discard(spec.well)
+                queue.append(spec)
+            else:
+                screened[spec.well] = fp or ABSENT
     return tuple(w for w in specs if w in waiting)
+
+
+def _screened_without(shared, wells: frozenset[str], carried: dict[str, frozenset], screened: dict, submitted: dict) -> list[str]:
+    """Wells of ``shared``'s acquisition set that this run screened (or is screening) without its value."""
+    return sorted(w for w in wells if w in carried and shared.key not in carried[w] and (w in screened or w in submitted))
 
 
 def run_plates(

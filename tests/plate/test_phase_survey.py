@@ -127,3 +127,56 @@ def test_the_run_says_what_first_order_phase_it_found(tmp_path):
     phase_lines = [k for k, line in enumerate(lines) if "phase: first-order phase" in line]
     assert len(phase_lines) == 1
     assert phase_lines[0] < min(k for k, line in enumerate(lines) if "] B1:" in line)
+
+
+def test_watch_run_screens_again_the_wells_phased_before_the_value_was_found(tmp_path):
+    """Weak wells whose recordings are complete before the strong ones are screened on their own;
+    once the strong wells agree, they are screened again with the shared value (their history keeps
+    both results) and the run's log says so."""
+    import io
+    import shutil
+    import threading
+    import time
+
+    from nmrcheck.plate.progress import LogProgress
+
+    staged = _plate(tmp_path / "staged", {f"A{i}": P1 for i in range(1, 5)})
+    plate = tmp_path / "plate"
+    plate.mkdir()
+    shutil.copy(staged.path, plate / "manifest.csv")
+    for well in ("B1", "B2"):
+        shutil.move(str(tmp_path / "staged" / well), str(plate / well))
+    manifest = read_manifest(plate / "manifest.csv")
+    out = tmp_path / "out"
+    stream = io.StringIO()
+    holder = {}
+    runner = threading.Thread(target=lambda: holder.setdefault("summary", run_plate(
+        manifest, out, executor=InlineExecutor(), watch=True, poll_s=0.1, quiet_s=0.0, time_limit_s=120,
+        progress=LogProgress(stream))), daemon=True)
+    runner.start()
+
+    def stored():
+        try:
+            with ResultsStore(out, readonly=True) as store:
+                return store.current(with_trace=False)
+        except Exception:  # noqa: BLE001 - the database may not exist yet
+            return {}
+
+    deadline = time.monotonic() + 60
+    while not {"B1", "B2"} <= set(stored()) and time.monotonic() < deadline:
+        time.sleep(0.1)
+    first = stored()
+    assert all(first[w].processing["options"]["shared_p1"] is None for w in ("B1", "B2"))
+    for well in ("A1", "A2", "A3", "A4"):
+        shutil.move(str(tmp_path / "staged" / well), str(plate / well))
+    runner.join(timeout=120)
+    assert not runner.is_alive() and holder["summary"].status == "complete"
+    with ResultsStore(out) as store:
+        current = store.current(with_trace=False)
+        history = store.history("B1")
+    for well in ("B1", "B2"):
+        shared = current[well].processing["options"]["shared_p1"]
+        assert shared is not None and shared[0] == pytest.approx(P1, abs=2.0)
+        assert current[well].processing["phase"]["p1_deg"] == pytest.approx(P1, abs=2.0)
+    assert len(history) == 2
+    assert "2 well(s) screened before it was found are screened again with it" in stream.getvalue()
