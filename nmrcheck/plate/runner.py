@@ -34,6 +34,7 @@ from nmrcheck.plate.progress import Progress
 from nmrcheck.plate.results import WellResult
 from nmrcheck.plate.screen import ScreenOptions, failure_result, screen_well, well_options_hash
 from nmrcheck.plate.store import ABSENT, ResultsStore
+from nmrcheck.processing.shared_phase import SharedPhase
 from nmrcheck.plate.workers import LocalPool, WellLimits
 
 __all__ = ["RunSummary", "RunInterrupted", "run_plate", "run_plates", "InlineExecutor", "default_workers", "DEFAULT_QUIET_S"]
@@ -568,7 +569,7 @@ def _run_watching(backend, store, keys, manifest, todo, store_result, progress, 
     return tuple(w for w in specs if w in waiting)
 
 
-def _screened_without(shared, wells: frozenset[str], carried: dict[str, frozenset], screened: dict, submitted: dict) -> list[str]:
+def _screened_without(shared: SharedPhase, wells: frozenset[str], carried: dict[str, frozenset], screened: dict, submitted: dict) -> list[str]:
     """Wells of ``shared``'s acquisition set that this run screened (or is screening) without its value."""
     return sorted(w for w in wells if w in carried and shared.key not in carried[w] and (w in screened or w in submitted))
 

@@ -8,7 +8,7 @@ import numpy as np
 
 from nmrcheck.processing.noise import noise_level
 from nmrcheck.processing.results import Reference
-from nmrcheck.processing.solvents import AQUEOUS, known_solvents, normalise_solvent, solvent_signals
+from nmrcheck.processing.solvents import AQUEOUS, SolventSignal, known_solvents, normalise_solvent, solvent_signals
 from nmrcheck.processing.spectrum import ProcessingStep, Spectrum
 
 __all__ = ["SolventSeen", "find_peak", "find_water_singlet", "reference_axis", "solvent_from_spectrum"]
@@ -321,7 +321,7 @@ def _any_line(spectrum: Spectrum, ppm: float, *, window_ppm: float, min_snr: flo
     return bool(seg.size >= 3 and np.any((seg[1:-1] >= seg[:-2]) & (seg[1:-1] > seg[2:]) & (seg[1:-1] > floor)))
 
 
-def _residual_seen(spectrum: Spectrum, name: str, sig, *, min_snr: float, sharp: float) -> tuple[float, str] | None:
+def _residual_seen(spectrum: Spectrum, name: str, sig: SolventSignal, *, min_snr: float, sharp: float) -> tuple[float, str] | None:
     """(where, how) the residual line ``sig`` of solvent ``name`` shows its own pattern, or None."""
     singlet = sig.multiplicity == "s"
     width = sharp if singlet else sharp + MULTIPLET_EXTRA_WIDTH_HZ
