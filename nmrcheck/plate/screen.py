@@ -25,6 +25,7 @@ from nmrcheck.io import Fid
 from nmrcheck.plate.manifest import WellSpec, resolve_spectrum
 from nmrcheck.plate.results import Dereplication, KnownMatch, SpectrumTrace, WellResult, options_hash
 from nmrcheck.processing import ProcessingOptions
+from nmrcheck.processing.results import Processed
 from nmrcheck.processing.shared_phase import SharedPhase, acquisition_key
 from nmrcheck.tolerances import DEFAULT_TOLERANCE_PPM
 
@@ -463,6 +464,20 @@ def _claimed_h_counts(spec: WellSpec, solvent: str | None) -> tuple[int, ...] | 
     return tuple(sorted(totals)) or None
 
 
+def _process_bounded(record: Any, popts: ProcessingOptions, counts: tuple[int, ...] | None, notes: list[str]) -> Processed:
+    """``process`` with the unit bounded by the claimed H totals, or free when the claims allow none that fits."""
+    from nmrcheck.processing import process
+
+    if not counts:
+        return process(record, popts)
+    try:
+        return process(record, dataclasses.replace(popts, candidate_h_counts=counts))
+    except ParameterError as exc:
+        # the claims allow no total the integrals fit: count freely, the checks will say why
+        notes.append(f"proton count not bounded by the claimed formulas: {exc}")
+        return process(record, popts)
+
+
 def _shared_phase_of(record: Any, options: ScreenOptions) -> SharedPhase | None:
     """The plate's shared first-order phase for ``record``'s acquisition set (None for a processed spectrum or no match)."""
     if not options.shared_phase or not isinstance(record, Fid):
@@ -484,7 +499,6 @@ def screen_well(spec: WellSpec, directory: str, options: ScreenOptions) -> WellR
         Processing and search options (the same for every well of a run).
     """
     from nmrcheck.io import read_any
-    from nmrcheck.processing import process
 
     clock = _Clock()
     notes: list[str] = []
@@ -522,22 +536,24 @@ def screen_well(spec: WellSpec, directory: str, options: ScreenOptions) -> WellR
         file_solvent = normalise_solvent(record.acquisition.solvent)
         if spec.solvent and file_solvent is None:
             popts = dataclasses.replace(popts, solvent=spec.solvent)
-        elif spec.solvent and file_solvent != spec.solvent:
-            notes.append(f"manifest solvent {spec.solvent} differs from the recording's {file_solvent}; the recording's is used")
         shared = _shared_phase_of(record, options)
         if shared is not None and popts.phase is None:
             popts = dataclasses.replace(popts, shared_p1=(shared.p1_deg, shared.scale_deg))
             notes.append(f"phased with the plate's {shared.describe()}")
-        counts = _claimed_h_counts(spec, file_solvent or spec.solvent)
-        if counts:
-            try:
-                processed = process(record, dataclasses.replace(popts, candidate_h_counts=counts))
-            except ParameterError as exc:
-                # the claims allow no total the integrals fit: count freely, the checks will say why
-                notes.append(f"proton count not bounded by the claimed formulas: {exc}")
-                processed = process(record, popts)
-        else:
-            processed = process(record, popts)
+        claimed_in = file_solvent or spec.solvent
+        counts = _claimed_h_counts(spec, claimed_in)
+        processed = _process_bounded(record, popts, counts, notes)
+        seen = normalise_solvent(processed.spectrum.solvent)
+        if counts and seen and seen != claimed_in:
+            # The spectrum shows another solvent than the file says: its exchange decides which H the claims allow.
+            again = _claimed_h_counts(spec, seen)
+            if again != counts:
+                processed = _process_bounded(record, popts, again, [])
+        if spec.solvent and file_solvent not in (None, spec.solvent):
+            if seen == spec.solvent:
+                notes.append(f"manifest solvent {spec.solvent} is what the spectrum shows; the recording says {file_solvent}")
+            else:
+                notes.append(f"manifest solvent {spec.solvent} differs from the recording's {file_solvent}; the recording's is used")
         clock.lap("process")
         real = processed.spectrum.data.real
         trace = SpectrumTrace.from_spectrum(processed.spectrum.ppm, real, bins=options.trace_bins)

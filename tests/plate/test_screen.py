@@ -147,3 +147,22 @@ def test_count_bounded_by_the_claimed_formula(results):
     assert r.count["method"] == "bounded by candidate formulas"
     assert round(r.count["total_h"]) == 12
     assert results["A2"].count["method"] != "bounded by candidate formulas"
+
+
+def test_solvent_the_spectrum_shows_decides_the_claimed_counts(tmp_path):
+    """A file that says CD3OD holding 3,3-dimethylbutan-1-ol in CDCl3 (CHCl3 at 7.26 ppm with its 13C
+    satellites at +-104.5 Hz, 0.55 % each; no CHD2OD at 3.31; Gottlieb 1997 and common practice, from
+    memory). In CD3OD the OH would exchange (13 visible H); in CDCl3 its singlet is seen, so the count is
+    bounded by CDCl3's 13-14 H and reads 14. The manifest's CDCl3 agrees with the spectrum, and says so."""
+    mhz = 600.0  # simulate_fid's default
+    chcl3 = [Line(7.26, 2.0 * UNIT * NMOL), *(Line(7.26 + s * 104.5 / mhz, 0.0055 * 2.0 * UNIT * NMOL) for s in (-1, 1))]
+    analyte = [Line(0.92, 9 * NMOL * UNIT), Line(1.52, 2 * NMOL * UNIT, 1.0, (7.5, 7.5)),
+               Line(3.70, 2 * NMOL * UNIT, 1.0, (7.5, 7.5)), Line(2.05, 1 * NMOL * UNIT, 1.5)]
+    write_bruker_fid(simulate_fid(chcl3 + analyte, noise=0.002, solvent="CD3OD", seed=7), tmp_path / "fids" / "A1")
+    (tmp_path / "manifest.csv").write_text("well,spectrum,solvent,structures\nA1,fids/{well},CDCl3,dimethylbutanol: CC(C)(C)CCO\n", encoding="utf-8")
+    plate = read_manifest(tmp_path / "manifest.csv")
+    r = screen_well(plate.well("A1"), plate.directory, OPTIONS)
+    assert any("solvent read from the spectrum" in w for w in r.processing["warnings"]), r.processing["warnings"]
+    assert r.count["method"] == "bounded by candidate formulas"
+    assert round(r.count["total_h"]) == 14
+    assert any("manifest solvent CDCl3 is what the spectrum shows" in n for n in r.notes), r.notes
