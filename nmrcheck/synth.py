@@ -103,6 +103,7 @@ def simulate_fid(
             relaxation_delay_s=10.0,
             acquisition_time_s=points / sw,
             title=None,
+            filter_delay="recorded" if group_delay_points else None,
         )
     return Fid(
         data=fid,

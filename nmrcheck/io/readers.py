@@ -276,7 +276,20 @@ def _bruker_acquisition(
         relaxation_delay_s=_optional(p, "D", source, notes, lo=0.0, hi=1e5, what="relaxation delay (s)", item=1),
         acquisition_time_s=(td / 2.0 / swh) if td else None,
         title=title,
+        prescan_delay_us=_optional(p, "DE", source, notes, lo=0.0, hi=1e4, what="pre-scan delay (us)"),
+        filter_delay=_filter_delay_kind(p),
     )
+
+
+def _filter_delay_kind(p: dict[str, Any]) -> str | None:
+    """``"recorded"`` when GRPDLY states the digital-filter delay, ``"table"`` when it comes from DECIM/DSPFVS, else None."""
+    grpdly = _num(p.get("GRPDLY"))
+    if grpdly is not None and grpdly > 0:
+        return "recorded"
+    decim, dspfvs = _num(p.get("DECIM")), _num(p.get("DSPFVS"))
+    if _num(p.get("DIGMOD")) == 0.0 or decim is None or dspfvs is None or decim <= 1:
+        return None
+    return "table"
 
 
 def _read_title(p: Path) -> str | None:

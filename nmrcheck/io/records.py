@@ -35,6 +35,11 @@ class Acquisition:
     title: str | None = None
     reference_mhz: float | None = None
     """Frequency of 0 ppm as the instrument set it (Bruker SF), MHz, when known."""
+    prescan_delay_us: float | None = None
+    """Delay between the end of the excitation pulse and the opening of the receiver (DE), microseconds."""
+    filter_delay: str | None = None
+    """How the digital filter's delay is known: ``"recorded"`` (the file states it), ``"table"`` (looked up
+    from the decimation and firmware), or None (no digital filter, or unknown)."""
 
 
 @dataclass(frozen=True, eq=False)

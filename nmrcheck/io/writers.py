@@ -50,6 +50,7 @@ def bruker_parameters(fid: Fid) -> dict[str, object]:
         "DECIM": 1 if not fid.group_delay_points else 16,
         "DSPFVS": 20,
         "GRPDLY": float(fid.group_delay_points) if fid.group_delay_points else -1.0,
+        **({"DE": float(acq.prescan_delay_us)} if acq.prescan_delay_us is not None else {}),
         "BYTORDA": 0,
         "DTYPA": 2,
         "AQ_mod": 3,

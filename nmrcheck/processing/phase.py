@@ -542,8 +542,9 @@ def auto_phase(
         Scale (deg) and weight (per unit of group weight) of the prior on ``p1``.
     p1_centre_deg : float
         Centre of that prior, and the first-order phase used when too few groups
-        survive to fit one. 0 for a spectrum on its own; recordings acquired with the
-        same parameters share their first-order phase (it is a matter of timing, not
+        survive to fit one. 0 by default; :func:`nmrcheck.processing.process` passes what the
+        acquisition's timing leaves when the file tells (:mod:`nmrcheck.processing.timing`, with a
+        tighter prior); recordings acquired with the same parameters share their first-order phase (it is a matter of timing, not
         of the sample), so a plate passes the value its strong wells agree on
         (:mod:`nmrcheck.processing.shared_phase`) with a tighter prior.
     min_groups_for_p1 : int

@@ -10,6 +10,7 @@ import numpy as np
 
 from nmrcheck.errors import ParameterError
 from nmrcheck.io import Fid, SpectrumFile, read_any
+from nmrcheck.io.records import Acquisition
 from nmrcheck.processing.baseline import correct_baseline
 from nmrcheck.processing.count import count_protons, threshold_loss
 from nmrcheck.processing.noise import noise_level
@@ -21,6 +22,7 @@ from nmrcheck.processing.shared_phase import SHARED_P1_PRIOR_WEIGHT, PhaseReadin
 from nmrcheck.processing.solvents import AQUEOUS, normalise_solvent
 from nmrcheck.processing.spectrum import ProcessingStep, Spectrum
 from nmrcheck.processing.suppression import suppression_foot, suppression_zone
+from nmrcheck.processing.timing import TIMING_P1_PRIOR_WEIGHT, expected_first_order
 from nmrcheck.processing.transform import fourier_transform, spectrum_from_file
 
 __all__ = ["ProcessingOptions", "process", "phase_reading", "snr_of", "MAX_SIZE"]
@@ -256,12 +258,17 @@ def _solvent_the_spectrum_shows(spec: Spectrum, ref: Reference, opts: Processing
     return moved, found, note
 
 
-def _prior_of(options: ProcessingOptions) -> dict[str, float]:
-    """auto_phase's first-order prior for ``options``: the shared value when given, else its defaults."""
-    if options.shared_p1 is None:
+def phase_prior(options: ProcessingOptions, acquisition: Acquisition | None) -> dict[str, float]:
+    """auto_phase's first-order prior: the plate's shared value when given, else what the acquisition's timing
+    leaves (:func:`nmrcheck.processing.timing.expected_first_order`; only for an FID transformed here, whose
+    delay is known), else auto_phase's defaults."""
+    if options.shared_p1 is not None:
+        centre, scale = options.shared_p1
+        return {"p1_centre_deg": float(centre), "p1_scale_deg": float(scale), "p1_prior_weight": SHARED_P1_PRIOR_WEIGHT}
+    timing = expected_first_order(acquisition) if acquisition is not None else None
+    if timing is None:
         return {}
-    centre, scale = options.shared_p1
-    return {"p1_centre_deg": float(centre), "p1_scale_deg": float(scale), "p1_prior_weight": SHARED_P1_PRIOR_WEIGHT}
+    return {"p1_centre_deg": timing.p1_deg, "p1_scale_deg": timing.scale_deg, "p1_prior_weight": TIMING_P1_PRIOR_WEIGHT}
 
 
 def phase_reading(fid: Fid, options: ProcessingOptions | None = None, *, skip_below_snr: float = 0.0) -> PhaseReading:
@@ -317,7 +324,7 @@ def process(source: Fid | SpectrumFile | str | os.PathLike, options: ProcessingO
     elif already_phased:
         phase = PhaseCorrection(0.0, 0.0, spec.first_ppm, "as processed by the instrument software")
     else:
-        spec, phase = auto_phase(spec, exclude_ppm=[(lo, hi) for lo, hi, _ in exclude], **_prior_of(opts))
+        spec, phase = auto_phase(spec, exclude_ppm=[(lo, hi) for lo, hi, _ in exclude], **phase_prior(opts, spec.acquisition if isinstance(record, Fid) else None))
         if phase.peaks_used == 0:
             warnings.append("no peak above noise to phase on; spectrum left unphased")
     spec = correct_baseline(spec, method=opts.baseline, smoothness_hz=opts.baseline_smoothness_hz)
