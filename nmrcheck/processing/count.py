@@ -41,10 +41,16 @@ def _misfit(integrals: np.ndarray, unit: float, loss: np.ndarray | None = None) 
 
     ``loss``: per region, the share of its area that may lie under the detection threshold
     (:func:`threshold_loss`); a region reading short of its integer by up to that share is not
-    held against the unit.
+    held against the unit, and one that could hold half a proton before that loss
+    (``h >= 0.5 * (1 - loss)``) counts as a signal of its own rather than a minor one: at
+    microgram signal a multiplet whose tallest line barely clears the threshold shows as a
+    region with a fraction of its area. Measured on the shared recordings' noisy copies
+    (bench/bench_microgram.py): at SNR 30, 42 of 45 counts in range instead of 39 (the unit of
+    16485-10-2 no longer halves to give two such partial multiplets whole protons); SNR 300,
+    100 and clean counts unchanged.
     """
     h = integrals / unit
-    major = h >= 0.5
+    major = h >= 0.5 if loss is None else h >= 0.5 * (1.0 - loss)
     if not major.any():
         return np.inf, 1.0, np.zeros(0)
     n = np.maximum(np.round(h[major]), 1.0)

@@ -20,7 +20,7 @@ PLATE_WELLS = ("A1", "A2", "B1", "B2")
 
 @pytest.fixture(scope="module")
 def client():
-    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None) as cluster, distributed.Client(cluster) as c:
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=":0") as cluster, distributed.Client(cluster) as c:
         yield c
 
 
