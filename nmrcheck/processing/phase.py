@@ -501,6 +501,7 @@ def auto_phase(
     p1_scale_deg: float = 60.0,
     p1_prior_weight: float = 0.002,
     p1_centre_deg: float = 0.0,
+    prior_full_snr: float | None = None,
     min_groups_for_p1: int = 3,
     use_group_integrals: bool = True,
     max_peaks: int = 40,
@@ -547,6 +548,11 @@ def auto_phase(
         tighter prior); recordings acquired with the same parameters share their first-order phase (it is a matter of timing, not
         of the sample), so a plate passes the value its strong wells agree on
         (:mod:`nmrcheck.processing.shared_phase`) with a tighter prior.
+    prior_full_snr : float, optional
+        With it, the prior keeps its weight while the tallest signal group stands at most this many
+        noise standard deviations high, and fades as ``(prior_full_snr / height)**2`` above: the
+        positivity objective is scaled the same at every SNR, while the data's own precision on ``p1``
+        grows with the signal, so a strong spectrum is left to its data (None: always the full weight).
     min_groups_for_p1 : int
         Fewest signal groups with which ``p1`` is fitted at all.
     max_peaks : int
@@ -604,6 +610,8 @@ def auto_phase(
         raise ParameterError(f"p1_scale_deg, p1_prior_weight: need a positive scale and a weight >= 0, got {p1_scale_deg!r}, {p1_prior_weight!r}")
     if not (np.isfinite(p1_centre_deg) and abs(p1_centre_deg) <= max_p1_deg):
         raise ParameterError(f"p1_centre_deg: must be a finite angle within max_p1_deg ({max_p1_deg:g} deg), got {p1_centre_deg!r}")
+    if prior_full_snr is not None and not prior_full_snr > 0:
+        raise ParameterError(f"prior_full_snr: must be positive, got {prior_full_snr!r}")
     if not (isinstance(min_groups_for_p1, (int, np.integer)) and min_groups_for_p1 >= 2):
         raise ParameterError(f"min_groups_for_p1: must be a whole number >= 2, got {min_groups_for_p1!r}")
     if not (isinstance(max_peaks, (int, np.integer)) and max_peaks >= 1):
@@ -656,6 +664,9 @@ def auto_phase(
             z = np.array([pk.height * np.exp(1j * np.radians(pk.phase_deg - p1_centre_deg * pk.x)) for pk in peaks])
             p0, p1 = float(np.degrees(np.angle(z.sum()))), float(p1_centre_deg)
         method, used = "peak-phase regression" if fit_p1 else "peak phase (zero order only)", len(peaks)
+    if groups and prior_full_snr is not None:
+        tallest = max(g.height for g in groups) / channel_noise(spectrum.data)
+        p1_prior_weight = p1_prior_weight * min(1.0, (prior_full_snr / tallest) ** 2)
     if groups and iterations:
         # Pivot at the strongest group, where p0 and p1 are least correlated.
         pivot_x = max(groups, key=lambda g: g.height).x

@@ -22,7 +22,7 @@ from nmrcheck.processing.shared_phase import SHARED_P1_PRIOR_WEIGHT, PhaseReadin
 from nmrcheck.processing.solvents import AQUEOUS, normalise_solvent
 from nmrcheck.processing.spectrum import ProcessingStep, Spectrum
 from nmrcheck.processing.suppression import suppression_foot, suppression_zone
-from nmrcheck.processing.timing import TIMING_P1_PRIOR_WEIGHT, expected_first_order
+from nmrcheck.processing.timing import TIMING_P1_FULL_SNR, TIMING_P1_PRIOR_WEIGHT, expected_first_order
 from nmrcheck.processing.transform import fourier_transform, spectrum_from_file
 
 __all__ = ["ProcessingOptions", "process", "phase_reading", "snr_of", "MAX_SIZE"]
@@ -268,7 +268,8 @@ def phase_prior(options: ProcessingOptions, acquisition: Acquisition | None) -> 
     timing = expected_first_order(acquisition) if acquisition is not None else None
     if timing is None:
         return {}
-    return {"p1_centre_deg": timing.p1_deg, "p1_scale_deg": timing.scale_deg, "p1_prior_weight": TIMING_P1_PRIOR_WEIGHT}
+    return {"p1_centre_deg": timing.p1_deg, "p1_scale_deg": timing.scale_deg, "p1_prior_weight": TIMING_P1_PRIOR_WEIGHT,
+            "prior_full_snr": TIMING_P1_FULL_SNR}
 
 
 def phase_reading(fid: Fid, options: ProcessingOptions | None = None, *, skip_below_snr: float = 0.0) -> PhaseReading:

@@ -235,6 +235,20 @@ def test_first_order_phase_stays_within_its_physical_bound():
     assert abs(corr.p1_deg) <= 120.0 + 1e-9
 
 
+def test_a_prior_fades_where_the_data_pin_the_first_order_phase():
+    """A strong spectrum (tallest line some 10**4 noise deviations) with 30 deg of first-order error built
+    in (nmrcheck.synth): a heavy prior at zero drags p1 away, the same prior told to keep its full
+    weight only up to 100 deviations leaves the data's answer within 1 deg."""
+    spec = _spectrum(20.0, 30.0, noise=5e-4, seed=3)
+    heavy = {"p1_centre_deg": 0.0, "p1_scale_deg": 15.0, "p1_prior_weight": 2.0}
+    _, dragged = auto_phase(spec, **heavy)
+    _, faded = auto_phase(spec, **heavy, prior_full_snr=100.0)
+    assert abs(dragged.p1_deg - 30.0) > 3.0
+    assert abs(faded.p1_deg - 30.0) <= 1.0
+    with pytest.raises(ParameterError, match="prior_full_snr"):
+        auto_phase(spec, prior_full_snr=0.0)
+
+
 def test_zero_order_only_when_two_groups_survive():
     """Two signal groups fix a line exactly but leave every noise error in its slope: with
     fewer than three groups only p0 is fitted (p1 reported as 0) and the lines still come out

@@ -14,12 +14,7 @@ BRUKER = ["aminoacid-mix-d2o-600", "aminoacid-mix-undried-1", "culture-medium-d2
 
 #: Recordings whose observed total does not (yet) reach the structure's H count, with the
 #: figure measured when this list was last updated. Kept visible, not tuned around.
-COUNT_MISSES: dict[str, str] = {
-    "2759-55-9": ("measured 8.7 H, ambiguous 5.3/8.7, for 12 C-H + 1 NH: with the first-order phase drawn toward "
-                  "its timing estimate (p1 4.3 deg instead of 4.9, both within 3 deg of the instrument) the doubled "
-                  "alternative falls just outside the ambiguity margin; its aromatic and methyl integrals "
-                  "read 15 % short and its water is a structured hump, so its count sits on a knife edge"),
-}
+COUNT_MISSES: dict[str, str] = {}
 
 _cache: dict[str, object] = {}
 
