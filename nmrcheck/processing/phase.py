@@ -502,6 +502,7 @@ def auto_phase(
     p1_prior_weight: float = 0.002,
     p1_centre_deg: float = 0.0,
     prior_full_snr: float | None = None,
+    p1_centre_name: str = "the shared",
     min_groups_for_p1: int = 3,
     use_group_integrals: bool = True,
     max_peaks: int = 40,
@@ -548,6 +549,8 @@ def auto_phase(
         tighter prior); recordings acquired with the same parameters share their first-order phase (it is a matter of timing, not
         of the sample), so a plate passes the value its strong wells agree on
         (:mod:`nmrcheck.processing.shared_phase`) with a tighter prior.
+    p1_centre_name : str
+        How the method string names the prior's centre ("the shared" for a plate's value).
     prior_full_snr : float, optional
         With it, the prior keeps its weight while the tallest signal group stands at most this many
         noise standard deviations high, and fades as ``(prior_full_snr / height)**2`` above: the
@@ -653,7 +656,7 @@ def auto_phase(
                                          p1_centre_deg=p1_centre_deg)
         method = "group integrals" if fit_p1 else "group integrals, zero order only (too few signal groups for a first-order term)"
         if p1_centre_deg:
-            method += f"; first order {'drawn toward' if fit_p1 else 'held at'} the shared {p1_centre_deg:.1f} deg"
+            method += f"; first order {'drawn toward' if fit_p1 else 'held at'} {p1_centre_name} {p1_centre_deg:.1f} deg"
         used = len(phases)
     else:
         fit_p1 = len(peaks) >= min_groups_for_p1

@@ -258,7 +258,7 @@ def _solvent_the_spectrum_shows(spec: Spectrum, ref: Reference, opts: Processing
     return moved, found, note
 
 
-def phase_prior(options: ProcessingOptions, acquisition: Acquisition | None) -> dict[str, float]:
+def phase_prior(options: ProcessingOptions, acquisition: Acquisition | None) -> dict[str, float | str]:
     """auto_phase's first-order prior: the plate's shared value when given, else what the acquisition's timing
     leaves (:func:`nmrcheck.processing.timing.expected_first_order`; only for an FID transformed here, whose
     delay is known), else auto_phase's defaults."""
@@ -269,7 +269,7 @@ def phase_prior(options: ProcessingOptions, acquisition: Acquisition | None) -> 
     if timing is None:
         return {}
     return {"p1_centre_deg": timing.p1_deg, "p1_scale_deg": timing.scale_deg, "p1_prior_weight": TIMING_P1_PRIOR_WEIGHT,
-            "prior_full_snr": TIMING_P1_FULL_SNR}
+            "prior_full_snr": TIMING_P1_FULL_SNR, "p1_centre_name": "the acquisition timing's"}
 
 
 def phase_reading(fid: Fid, options: ProcessingOptions | None = None, *, skip_below_snr: float = 0.0) -> PhaseReading:

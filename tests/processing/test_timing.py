@@ -63,6 +63,7 @@ def test_prior_is_the_plate_value_first_and_only_for_fids():
     assert phase_prior(ProcessingOptions(), acq)["p1_centre_deg"] == pytest.approx(expected_first_order(acq).p1_deg)
     assert phase_prior(ProcessingOptions(shared_p1=(12.0, 5.0)), acq)["p1_centre_deg"] == 12.0
     assert phase_prior(ProcessingOptions(), None) == {}
+    assert phase_prior(ProcessingOptions(), acq)["p1_centre_name"] == "the acquisition timing's"
 
 
 def test_weak_spectrum_takes_the_first_order_phase_its_timing_leaves():
