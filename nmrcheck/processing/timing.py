@@ -9,13 +9,14 @@ digital filter's own delay is taken out, what remains of ``dt`` is
   the pulse after the effective start of precession, ``tau * (1 - cos b) / (b * sin b)`` for a
   rectangular pulse of length ``tau`` and flip angle ``b`` (2 tau / pi for 90 deg, tau / 2 for
   small flips; from memory, a standard result of pulse analysis);
-* when the delay comes from the firmware's table (older instruments): nothing, because those
-  tables were measured to leave a flat phase.
+* when the delay comes from the firmware's table (older instruments): zero. The shared
+  recordings of that kind sit within 10 deg of it, so those tabulated delays appear to take the
+  pre-scan delay and the pulse in already (an observation on these files, not a documented rule).
 
 This is what the phase correction's first-order prior is centred on (:func:`expected_first_order`).
 Measured on the shared recordings (the instruments' own corrections, tools/phase_vs_instrument.py):
 the recorded-delay files (DE 6-6.5 us, 30 and 90 deg pulses, 3-10 kHz widths, 8 of them) sit
--3 to +8 deg from this estimate, against 10-57 deg from zero; the table-delay files (10 of them)
+-3 to +8 deg from this estimate, against 10-57 deg from zero; the table-delay files (9 measured)
 sit within 10 deg of zero. Sequences whose FID does not start right after one excitation pulse
 (echoes, shaped or composite excitation) get no estimate.
 """
@@ -75,7 +76,7 @@ def excitation_flip_deg(pulse_program: str | None) -> float | None:
 def expected_first_order(acq: Acquisition) -> TimingPrior | None:
     """The first-order phase the acquisition's timing leaves, or None when the file does not tell."""
     if acq.filter_delay == "table":
-        return TimingPrior(0.0, TIMING_P1_SCALE_DEG, "digital-filter delay from the firmware table (leaves a flat phase)")
+        return TimingPrior(0.0, TIMING_P1_SCALE_DEG, "digital-filter delay from the firmware table (the shared recordings of that kind sit near zero)")
     if acq.filter_delay != "recorded" or acq.prescan_delay_us is None or acq.pulse_us is None:
         return None
     flip = excitation_flip_deg(acq.pulse_program)
