@@ -25,6 +25,20 @@ def refdata() -> Path:
     return p
 
 
+@pytest.fixture(scope="session")
+def phase_tool(refdata):
+    """The shared measuring tool tools/phase_vs_instrument.py beside the recordings (skip when absent)."""
+    import importlib.util
+
+    path = refdata.parent / "tools" / "phase_vs_instrument.py"
+    if not path.is_file():
+        pytest.skip(f"measuring tool not found at {path}")
+    spec = importlib.util.spec_from_file_location("phase_vs_instrument", path)
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    return module
+
+
 def jcamp_recordings() -> list[str]:
     """Names of the JCAMP-DX recording folders, for parametrising (empty when refdata is absent)."""
     p = _refdata_dir()

@@ -325,7 +325,9 @@ def process(source: Fid | SpectrumFile | str | os.PathLike, options: ProcessingO
     elif already_phased:
         phase = PhaseCorrection(0.0, 0.0, spec.first_ppm, "as processed by the instrument software")
     else:
-        spec, phase = auto_phase(spec, exclude_ppm=[(lo, hi) for lo, hi, _ in exclude], **phase_prior(opts, spec.acquisition if isinstance(record, Fid) else None))
+        # The timing estimate holds for an FID transformed here; a processed spectrum was phased already.
+        prior = phase_prior(opts, spec.acquisition if isinstance(record, Fid) else None)
+        spec, phase = auto_phase(spec, exclude_ppm=[(lo, hi) for lo, hi, _ in exclude], **prior)
         if phase.peaks_used == 0:
             warnings.append("no peak above noise to phase on; spectrum left unphased")
     spec = correct_baseline(spec, method=opts.baseline, smoothness_hz=opts.baseline_smoothness_hz)

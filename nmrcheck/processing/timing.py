@@ -38,7 +38,8 @@ TIMING_P1_SCALE_DEG = 15.0
 #: :func:`nmrcheck.processing.phase.auto_phase`). Measured on the shared recordings' noisy copies
 #: (bench/bench_microgram.py): against the prior at zero (scale 60 deg, weight 0.002), at SNR 30
 #: 51 of 54 within 5 deg instead of 45, at SNR 100 45 of 51 within 3 deg instead of 43; clean
-#: spectra 18 of 18 either way. A weight of 0.05 loses a clean spectrum.
+#: spectra 18 of 18 either way. Before the fading below, a weight of 0.05 lost a clean spectrum;
+#: with it, 0.03 and 0.1 each lose one SNR-300 copy within 5 deg and one SNR-30 copy.
 TIMING_P1_PRIOR_WEIGHT = 0.01
 #: The prior keeps that weight while the tallest signal group stands up to this many noise standard
 #: deviations (a spectrum of SNR 300 in the noisy copies' definition, the top of the microgram range)

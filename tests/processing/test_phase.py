@@ -10,7 +10,6 @@ shared tool ``tools/phase_vs_instrument.py`` (12 strongest peaks outside
 
 from __future__ import annotations
 
-import importlib.util
 import itertools
 from dataclasses import replace
 
@@ -196,19 +195,9 @@ BRUKER = ["aminoacid-mix-d2o-600", "aminoacid-mix-undried-1", "culture-medium-d2
 REAL_ONLY = {"140-67-0"}
 
 
-def _tool(refdata):
-    path = refdata.parent / "tools" / "phase_vs_instrument.py"
-    if not path.is_file():
-        pytest.skip(f"measuring tool not found at {path}")
-    spec = importlib.util.spec_from_file_location("phase_vs_instrument", path)
-    module = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(module)
-    return module
-
-
 @pytest.mark.refdata
 @pytest.mark.parametrize("name", JCAMP + BRUKER)
-def test_matches_instrument_phasing(refdata, name):
+def test_matches_instrument_phasing(refdata, phase_tool, name):
     """Max |phase error| at the instrument spectrum's 12 strongest peaks <= 3 deg, measured with the
     shared tool tools/phase_vs_instrument.py against the instrument software's processed spectrum."""
     if name in REAL_ONLY:
@@ -216,13 +205,12 @@ def test_matches_instrument_phasing(refdata, name):
     folder = refdata / ("bruker-raw" if name in BRUKER else "jcamp-fid") / name
     if not folder.is_dir():
         pytest.skip(f"{folder} is absent")
-    tool = _tool(refdata)
-    instrument, si, lb = tool.instrument_spectrum(str(folder))
+    instrument, si, lb = phase_tool.instrument_spectrum(str(folder))
     fid = read_fid(folder if name in BRUKER else folder / "1h.fid.dx")
     spec = fourier_transform(fid, lb_hz=lb, size=si)
     # The exclusion the processing pipeline itself passes (suppression zone measured on the spectrum).
     phased, _ = auto_phase(spec, exclude_ppm=phasing_exclusion(spec))
-    _, angles, _ = tool.phase_errors(phased.data, instrument, ppm=phased.ppm)
+    _, angles, _ = phase_tool.phase_errors(phased.data, instrument, ppm=phased.ppm)
     assert float(np.max(np.abs(angles))) <= 3.0
 
 

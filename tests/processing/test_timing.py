@@ -9,7 +9,6 @@ recordings, measured with the shared tool tools/phase_vs_instrument.py.
 
 from __future__ import annotations
 
-import importlib.util
 import math
 from dataclasses import replace
 
@@ -84,16 +83,6 @@ def test_weak_spectrum_takes_the_first_order_phase_its_timing_leaves():
     assert bare.phase.p1_deg == 0.0
 
 
-def _tool(refdata):
-    path = refdata.parent / "tools" / "phase_vs_instrument.py"
-    if not path.is_file():
-        pytest.skip(f"measuring tool not found at {path}")
-    spec = importlib.util.spec_from_file_location("phase_vs_instrument", path)
-    module = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(module)
-    return module
-
-
 RECORDED = ["2216-51-5", "2591-86-8", "492-62-6", "623-47-2"]
 BRUKER = ["aminoacid-mix-d2o-600", "aminoacid-mix-undried-1", "culture-medium-d2o", "glucose-d2o-600"]
 TABLE = ["1047626-52-7", "141-32-2", "16485-10-2", "2759-55-9", "403-40-7", "50-78-2", "517920-70-6", "620-71-3", "623-70-1"]
@@ -101,14 +90,13 @@ TABLE = ["1047626-52-7", "141-32-2", "16485-10-2", "2759-55-9", "403-40-7", "50-
 
 @pytest.mark.refdata
 @pytest.mark.parametrize("name", RECORDED + BRUKER + TABLE)
-def test_estimate_lies_within_its_spread_of_the_instruments_phasing(refdata, name):
+def test_estimate_lies_within_its_spread_of_the_instruments_phasing(refdata, phase_tool, name):
     """The instrument's first-order phase (the slope of the phase errors at its 12 strongest peaks when our
     spectrum carries only the timing estimate) lies within the prior's spread of the estimate."""
     folder = refdata / ("bruker-raw" if name in BRUKER else "jcamp-fid") / name
     if not folder.is_dir():
         pytest.skip(f"{folder} is absent")
-    tool = _tool(refdata)
-    instrument, si, lb = tool.instrument_spectrum(str(folder))
+    instrument, si, lb = phase_tool.instrument_spectrum(str(folder))
     fid = read_fid(folder if name in BRUKER else folder / "1h.fid.dx")
     prior = expected_first_order(fid.acquisition)
     assert prior is not None
@@ -119,7 +107,7 @@ def test_estimate_lies_within_its_spread_of_the_instruments_phasing(refdata, nam
     # is the instrument's first-order phase minus the estimate.
     def errors(p0):
         trial = apply_phase(spec, p0_deg=p0, p1_deg=prior.p1_deg)
-        return (trial, *tool.phase_errors(trial.data, instrument, ppm=trial.ppm))
+        return (trial, *phase_tool.phase_errors(trial.data, instrument, ppm=trial.ppm))
 
     p0 = min(np.arange(0.0, 360.0, 20.0), key=lambda a: float(np.median(np.abs(errors(a)[2]))))
     for _ in range(2):
