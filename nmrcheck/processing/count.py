@@ -10,7 +10,7 @@ import numpy as np
 from nmrcheck.errors import ParameterError
 from nmrcheck.processing.results import ProtonCount, Region
 
-__all__ = ["bounded_unit", "competing_units", "count_protons", "find_unit", "near_totals", "threshold_loss"]
+__all__ = ["bounded_alternatives", "bounded_unit", "competing_units", "count_protons", "find_unit", "near_totals", "threshold_loss"]
 
 #: Integration error model used to choose the unit: a region of n protons reads
 #: n * (1 +- RELATIVE_ERROR) +- ABSOLUTE_ERROR protons. Routine 1H spectra acquired with
@@ -181,18 +181,16 @@ def find_unit(integrals: Sequence[float], *, max_h_per_region: int = 12, loss: S
     return best_u, best_c
 
 
-def bounded_unit(integrals: Sequence[float], allowed_totals: Sequence[int], *, loss: Sequence[float] | None = None) -> tuple[float, int]:
-    """(unit, total) among whole-proton totals a caller allows (e.g. candidate formulas' visible H).
+def _bounded_fits(arr: np.ndarray, share: np.ndarray | None, allowed_totals: Sequence[int]) -> list[tuple[float, float, int]]:
+    """(cost, unit, total) of the best fit for each allowed total, fewest protons first.
 
-    For each allowed total N the unit starts at the summed integral over N and is
-    refined by least squares on its own integer assignment; the pair with the
-    lowest cost whose integer total stays within one proton of N wins.
+    For each allowed total N the unit starts at the summed integral over N and is refined by
+    least squares on its own integer assignment; a total whose integer assignment strays more
+    than one proton from N does not fit.
     """
-    arr, share = _positive(integrals, loss)
-    if arr.size == 0:
-        raise ParameterError("integrals: no positive region to count protons from")
-    best = None
+    fits = []
     for total in sorted({int(t) for t in allowed_totals if int(t) > 0}):
+        best: tuple[float, float, int] | None = None
         for u in (arr.sum() / total, _polish(arr, arr.sum() / total)):
             misfit, _, n = _misfit(arr, u, share)
             if not np.isfinite(misfit) or abs(n.sum() - total) > 1:
@@ -200,9 +198,54 @@ def bounded_unit(integrals: Sequence[float], allowed_totals: Sequence[int], *, l
             c = _cost(arr, u, loss=share)
             if best is None or c < best[0]:
                 best = (c, float(u), total)
-    if best is None:
+        if best is not None:
+            fits.append(best)
+    return fits
+
+
+def bounded_unit(integrals: Sequence[float], allowed_totals: Sequence[int], *, loss: Sequence[float] | None = None) -> tuple[float, int]:
+    """(unit, total) among whole-proton totals a caller allows (e.g. candidate formulas' visible H).
+
+    For each allowed total N the unit starts at the summed integral over N and is
+    refined by least squares on its own integer assignment; the pair with the
+    lowest cost whose integer total stays within one proton of N wins (the fewer
+    protons on a tie).
+    """
+    arr, share = _positive(integrals, loss)
+    if arr.size == 0:
+        raise ParameterError("integrals: no positive region to count protons from")
+    fits = _bounded_fits(arr, share, allowed_totals)
+    if not fits:
         raise ParameterError(f"candidate_h_counts: no allowed total ({', '.join(map(str, allowed_totals))}) fits the integrals")
-    return best[1], best[2]
+    _, unit, total = min(fits, key=lambda fit: fit[0])
+    return unit, total
+
+
+def bounded_alternatives(integrals: Sequence[float], allowed_totals: Sequence[int], best_unit: float, *,
+                         margin: float = AMBIGUITY_MARGIN, loss: Sequence[float] | None = None) -> tuple[list[float], list[float]]:
+    """(competing units, neighbouring totals) among the allowed totals that fit about as well as ``best_unit``.
+
+    The candidate formulas bound the count but need not settle it: two of them can differ by about
+    a factor of two in H (a dimer, a formula with twice the protons at the same mass defect), and
+    the integrals may fit both, as they fit n and 2n protons without formulas (:func:`competing_units`).
+    Allowed totals whose cost lies within ``margin`` of the best unit's are returned: units of totals
+    at least a quarter away from the best one (reported as ``ambiguous``), and the totals of those
+    nearer (which only widen the range, as :func:`near_totals` does).
+    """
+    arr, share = _positive(integrals, loss)
+    best_cost = _cost(arr, best_unit, loss=share)
+    best_total = arr.sum() / best_unit
+    competing: list[float] = []
+    near: list[float] = []
+    for cost, unit, _ in _bounded_fits(arr, share, allowed_totals):
+        total = float(arr.sum() / unit)
+        if cost > best_cost + margin or abs(unit - best_unit) <= 1e-9 * best_unit:
+            continue
+        if abs(total - best_total) >= 0.25 * best_total:
+            competing.append(unit)
+        else:
+            near.append(round(total, 2))
+    return competing, near
 
 
 def _polish(arr: np.ndarray, unit: float) -> float:
@@ -237,7 +280,8 @@ def count_protons(
         this number, and the residuals say how well the regions fit integers.
     candidate_h_counts
         Whole-proton totals the candidate formulas allow (visible H); the unit is then
-        chosen among them (:func:`bounded_unit`), not from the integrals alone.
+        chosen among them (:func:`bounded_unit`), not from the integrals alone; allowed totals
+        the integrals fit about as well are offered beside it (:func:`bounded_alternatives`).
     one_proton_detection_limit
         Smallest integral a one-proton multiplet needs to be detected (same units as the
         integrals). Where twice the count would put one proton under it, one-proton
@@ -266,6 +310,7 @@ def count_protons(
         bounded = tuple(sorted({int(t) for t in candidate_h_counts}))
         unit, _ = bounded_unit(integrals, bounded, loss=loss)
         method = "bounded by candidate formulas"
+        alternatives, neighbours = bounded_alternatives(integrals, bounded, unit, loss=loss)
     else:
         unit, _ = find_unit(integrals, loss=loss)
         method = "self-consistent"

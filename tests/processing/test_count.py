@@ -162,6 +162,24 @@ def test_candidate_formulas_bound_the_unit():
         bounded_unit(integrals, [0])
 
 
+def test_candidate_totals_the_integrals_fit_alike_are_both_offered():
+    """The same integrals, with candidate formulas allowing 6 and 12 H (totals in the ratio 1:2, as
+    for a formula and its dimer): the integrals fit both about as well as they fit n and 2n protons
+    without formulas, so the count offers both (ambiguous) instead of a confident 6 H. A nearer
+    candidate total that fits about as well (14 beside 12) only widens the range."""
+    integrals = list(np.array([2.0, 2.0, 1.0, 2.0, 3.0, 2.0]) * np.array([0.6, 0.6, 0.55, 0.55, 0.9, 0.7]))
+    _, free = count_protons(_regions(integrals))
+    _, both = count_protons(_regions(integrals), candidate_h_counts=(6, 12))
+    assert both.method == "bounded by candidate formulas"
+    assert both.ambiguous and both.alternative_totals == free.alternative_totals
+    assert min(both.alternative_totals) < 7 and 11.5 < max(both.alternative_totals) < 13.5
+    assert both.total_h_low <= 12 <= both.total_h_high
+    _, near = count_protons(_regions(integrals), candidate_h_counts=(12, 14))
+    assert not near.ambiguous and near.total_h_low <= 12.5 and near.total_h_high >= 14
+    _, one = count_protons(_regions(integrals), candidate_h_counts=(12,))
+    assert not one.ambiguous and one.total_h_high < 14
+
+
 # An invented compound in D2O with DSS: its 9 H singlet at 0 ppm and its three 2 H methylene
 # multiplets (2.91, 1.75, 0.63 ppm; common practice) must never be counted.
 ANALYTE = [Line(7.40, 2.0, 1.0, (8.0,)), Line(7.05, 2.0, 1.0, (8.0,)), Line(3.95, 2.0, 1.0, (6.5, 6.5)),
