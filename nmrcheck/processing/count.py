@@ -50,7 +50,7 @@ def _misfit(integrals: np.ndarray, unit: float, loss: np.ndarray | None = None) 
     100 and clean counts unchanged.
     """
     h = integrals / unit
-    major = h >= 0.5 if loss is None else h >= 0.5 * (1.0 - loss)
+    major = _signals(integrals, unit, loss)
     if not major.any():
         return np.inf, 1.0, np.zeros(0)
     n = np.maximum(np.round(h[major]), 1.0)
@@ -60,6 +60,23 @@ def _misfit(integrals: np.ndarray, unit: float, loss: np.ndarray | None = None) 
     z = (h[major] - n) / sigma
     minor_share = float(integrals[~major].sum() / integrals.sum())
     return float(np.mean(z * z)), minor_share, n
+
+
+def _signals(integrals: np.ndarray, unit: float, loss: np.ndarray | None = None) -> np.ndarray:
+    """Regions that read as signals of their own at ``unit``: half a proton or more before their threshold loss."""
+    h = integrals / unit
+    return h >= 0.5 if loss is None else h >= 0.5 * (1.0 - loss)
+
+
+def _keeps_signals(integrals: np.ndarray, unit: float, signals: np.ndarray, loss: np.ndarray | None) -> bool:
+    """True when every region in ``signals`` still reads as a signal at ``unit``.
+
+    A second reading of the count (n or 2n protons) divides every signal alike. A unit at which a
+    counted signal falls under half a proton instead calls that signal an impurity (three methyl
+    singlets and a one-proton singlet, 3:3:3:1, read as 1:1:1 and a third of a proton): a question
+    for the purity check, not another count of the same compound.
+    """
+    return not np.any(signals & ~_signals(integrals, unit, loss))
 
 
 def _cost(integrals: np.ndarray, unit: float, parsimony: float = PARSIMONY, loss: np.ndarray | None = None) -> float:
@@ -113,7 +130,9 @@ def competing_units(integrals: Sequence[float], best_unit: float, *, margin: flo
     or every 1 H as 2 H. Each such multiple of ``best_unit`` is refined on its own
     integer assignment; those whose cost (misfit, Occam and minor-signal terms,
     :func:`find_unit`) lies within ``margin`` of the best unit's cost are returned,
-    fewest protons first. Only the Occam term chose between them and the best.
+    fewest protons first. Only the Occam term chose between them and the best. A unit at which a
+    signal of the best count falls under half a proton is no second reading of the count
+    (:func:`_keeps_signals`) and is not returned.
 
     The Occam term rests on every signal being seen, and the one-proton signals that
     would tell n from 2n protons are the first to vanish in the noise. So when the
@@ -123,11 +142,12 @@ def competing_units(integrals: Sequence[float], best_unit: float, *, margin: flo
     """
     arr, share = _positive(integrals, loss)
     best_total = _misfit(arr, best_unit, share)[2].sum()
+    signals = _signals(arr, best_unit, share)
     out: dict[int, float] = {}
     for factor in (3.0, 2.0, 0.5, 1.0 / 3.0):
         u = _polish(arr, best_unit * factor)
         misfit, _, n = _misfit(arr, u, share)
-        if not np.isfinite(misfit):
+        if not np.isfinite(misfit) or not _keeps_signals(arr, u, signals, share):
             continue
         hidden = factor == 0.5 and detection_limit is not None and u < detection_limit
         parsimony = 0.0 if hidden else PARSIMONY
@@ -228,18 +248,22 @@ def bounded_alternatives(integrals: Sequence[float], allowed_totals: Sequence[in
     The candidate formulas bound the count but need not settle it: two of them can differ by about
     a factor of two in H (a dimer, a formula with twice the protons at the same mass defect), and
     the integrals may fit both, as they fit n and 2n protons without formulas (:func:`competing_units`).
-    Allowed totals whose cost lies within ``margin`` of the best unit's are returned: units of totals
-    at least a quarter away from the best one (reported as ``ambiguous``), and the totals of those
-    nearer (which only widen the range, as :func:`near_totals` does).
+    Allowed totals whose cost lies within ``margin`` of the best unit's, and at whose unit every signal
+    of the best count stays a signal (:func:`_keeps_signals`), are returned: units of totals at least
+    a quarter away from the best one (reported as ``ambiguous``), and the totals of those nearer
+    (which only widen the range, as :func:`near_totals` does).
     """
     arr, share = _positive(integrals, loss)
     best_cost = _cost(arr, best_unit, loss=share)
     best_total = arr.sum() / best_unit
+    signals = _signals(arr, best_unit, share)
     competing: list[float] = []
     near: list[float] = []
     for cost, unit, _ in _bounded_fits(arr, share, allowed_totals):
         total = float(arr.sum() / unit)
         if cost > best_cost + margin or abs(unit - best_unit) <= 1e-9 * best_unit:
+            continue
+        if not _keeps_signals(arr, unit, signals, share):
             continue
         if abs(total - best_total) >= 0.25 * best_total:
             competing.append(unit)

@@ -180,6 +180,24 @@ def test_candidate_totals_the_integrals_fit_alike_are_both_offered():
     assert not one.ambiguous and one.total_h_high < 14
 
 
+def test_a_count_that_calls_a_signal_an_impurity_is_no_second_reading():
+    """Caffeine's 1H spectrum: three N-methyl singlets and the H-8 singlet, 3:3:3:1 (from its structure,
+    common practice), as integrated by the demo plate's synthetic well (0.98, 2.97, 3.06, 2.98 H). A third
+    of the unit reads the methyls as 1 H each and H-8 as a third of a proton, an impurity: that is not
+    the n-or-3n ambiguity of the count, with or without the formula's allowance of 1-10 visible H
+    (C8H10N4O2, every N-H and O-H allowed)."""
+    integrals = [0.98, 2.97, 3.06, 2.98]
+    _, free = count_protons(_regions(integrals))
+    assert not free.ambiguous and free.integer_h == 10
+    _, bounded = count_protons(_regions(integrals), candidate_h_counts=tuple(range(1, 11)))
+    assert not bounded.ambiguous and bounded.integer_h == 10
+    # Where every signal is divided alike, the second reading stays: the relaxation-weighted
+    # 4-allylanisole integrals above read 6 or 12-13 H.
+    weighted = list(np.array([2.0, 2.0, 1.0, 2.0, 3.0, 2.0]) * np.array([0.6, 0.6, 0.55, 0.55, 0.9, 0.7]))
+    _, both = count_protons(_regions(weighted))
+    assert both.ambiguous and min(both.alternative_totals) < 7 and max(both.alternative_totals) > 12
+
+
 # An invented compound in D2O with DSS: its 9 H singlet at 0 ppm and its three 2 H methylene
 # multiplets (2.91, 1.75, 0.63 ppm; common practice) must never be counted.
 ANALYTE = [Line(7.40, 2.0, 1.0, (8.0,)), Line(7.05, 2.0, 1.0, (8.0,)), Line(3.95, 2.0, 1.0, (6.5, 6.5)),
