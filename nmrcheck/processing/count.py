@@ -314,7 +314,8 @@ def count_protons(
     threshold_losses
         Per region (same order as ``regions``), the share of its area that may lie under the
         detection threshold (:func:`threshold_loss`); regions reading short by up to it are not
-        held against a unit.
+        held against a unit, and the high end of the range reaches what the regions would hold
+        with that share restored.
     """
     counted_idx = [i for i, r in enumerate(regions) if r.counted and r.integral > 0]
     if not counted_idx:
@@ -352,6 +353,10 @@ def count_protons(
     # the low end of the range is what the major regions alone hold.
     low = min(total - half, integer - 2.0 * noise_h - 0.3)
     high = total + half
+    # A region found above the threshold may have left up to its threshold loss of its area under it
+    # (:func:`threshold_loss`): what the regions may hold beyond what they show belongs to the range.
+    if loss is not None:
+        high += float(np.sum(np.clip(hs, 0.0, None) * loss / (1.0 - np.clip(loss, 0.0, 0.5))))
     # Units a few protons apart that fit about as well widen the range to their totals.
     if neighbours:
         low = min(low, min(neighbours) - 0.3)
