@@ -245,9 +245,10 @@ def bounded_alternatives(integrals: Sequence[float], allowed_totals: Sequence[in
                          margin: float = AMBIGUITY_MARGIN, loss: Sequence[float] | None = None) -> tuple[list[float], list[float]]:
     """(competing units, neighbouring totals) among the allowed totals that fit about as well as ``best_unit``.
 
-    The candidate formulas bound the count but need not settle it: two of them can differ by about
-    a factor of two in H (a dimer, a formula with twice the protons at the same mass defect), and
-    the integrals may fit both, as they fit n and 2n protons without formulas (:func:`competing_units`).
+    The candidate formulas bound the count but need not settle it: the totals they allow can span a
+    factor of two or more (the formulas of M and of a 2M ion read as M; a formula alone, whose N-H and
+    O-H may or may not show), and the integrals may fit two of them, as they fit n and 2n protons
+    without formulas (:func:`competing_units`).
     Allowed totals whose cost lies within ``margin`` of the best unit's, and at whose unit every signal
     of the best count stays a signal (:func:`_keeps_signals`), are returned: units of totals at least
     a quarter away from the best one (reported as ``ambiguous``), and the totals of those nearer
