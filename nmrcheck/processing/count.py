@@ -31,6 +31,9 @@ AMBIGUITY_MARGIN = PARSIMONY / 2.0
 #: High end of the range, as a multiple of the total's, when one-proton multiplets would be
 #: under the detection limit (:func:`count_protons`).
 HIDDEN_FACTOR = 2.0
+#: Totals of other units within these multiples of the best total widen the range
+#: (:func:`near_totals`); further away they are a second reading (:func:`competing_units`).
+NEAR_TOTALS = (0.6, 1.6)
 #: Relative integration error added to the range of the total, for baseline and
 #: relaxation losses (common practice for routine, not fully quantitative, spectra).
 SYSTEMATIC_FRACTION = 0.03
@@ -122,7 +125,8 @@ def _candidate_units(arr: np.ndarray, max_h_per_region: int) -> np.ndarray:
 
 
 def competing_units(integrals: Sequence[float], best_unit: float, *, margin: float = AMBIGUITY_MARGIN,
-                    detection_limit: float | None = None, loss: Sequence[float] | None = None) -> list[float]:
+                    detection_limit: float | None = None, loss: Sequence[float] | None = None,
+                    max_h_per_region: int = 12) -> list[float]:
     """Units giving two or three times (or a half or a third of) the best count at nearly its cost.
 
     Relaxation weighting, overlap and a few missing or extra protons can make the
@@ -139,6 +143,12 @@ def competing_units(integrals: Sequence[float], best_unit: float, *, margin: flo
     unit of twice the best count lies under ``detection_limit`` (the smallest integral
     a one-proton multiplet needs to be detected), that count is compared with the
     best on misfit and minor-signal terms alone.
+
+    A second reading need not be a multiple: with the error model's 30 % allowance at one proton,
+    signals of 2 and 3 H (2:3:2:3:3) can read as five singlets of one proton, and 4.8 H fits about
+    as well as 13. So on a side (more protons, fewer) where no multiple fits, the candidate unit of
+    :func:`find_unit` that fits best is offered when it fits within ``margin`` and its total lies
+    beyond the reach of :func:`near_totals` (under 0.6 or over 1.6 times the best total).
     """
     arr, share = _positive(integrals, loss)
     best_total = _misfit(arr, best_unit, share)[2].sum()
@@ -156,6 +166,18 @@ def competing_units(integrals: Sequence[float], best_unit: float, *, margin: flo
         total = int(n.sum())
         if abs(total - best_total) >= 0.25 * best_total:
             out[total] = float(u)
+    # On a side where no multiple fits, the best-fitting unit of any size beyond near_totals' reach.
+    best_cost = _cost(arr, best_unit, loss=share)
+    reach = arr.sum() / best_unit * np.array(NEAR_TOTALS)
+    far = [float(u) for u in _candidate_units(arr, max_h_per_region)
+           if not reach[0] <= arr.sum() / u <= reach[1]
+           and _keeps_signals(arr, u, signals, share) and _cost(arr, u, loss=share) <= best_cost + margin]
+    for side in (-1, 1):
+        if not any((t - best_total) * side > 0 for t in out):
+            fits = [(_cost(arr, u, loss=share), u) for u in far if (arr.sum() / u - best_total) * side > 0]
+            if fits:
+                u = min(fits)[1]
+                out[int(_misfit(arr, u, share)[2].sum())] = u
     return [out[t] for t in sorted(out)]
 
 
@@ -166,8 +188,8 @@ def near_totals(integrals: Sequence[float], best_unit: float, *, margin: float =
     Crowded spectra (overlapping methyls, a multiplet cut differently by the noise) can be
     fitted by units a few protons apart at nearly the same cost. Each candidate unit of
     :func:`find_unit` whose cost lies within ``margin`` of the best unit's gives its total;
-    only totals within 0.6-1.6 times the best one are returned (multiples are
-    :func:`competing_units`' business).
+    only totals within :data:`NEAR_TOTALS` (0.6-1.6) times the best one are returned (those further
+    away are :func:`competing_units`' business).
     """
     arr, share = _positive(integrals, loss)
     best_cost = _cost(arr, best_unit, loss=share)
@@ -175,7 +197,7 @@ def near_totals(integrals: Sequence[float], best_unit: float, *, margin: float =
     out = set()
     for u in _candidate_units(arr, max_h_per_region):
         total = arr.sum() / u
-        if 0.6 * best_total <= total <= 1.6 * best_total and _cost(arr, u, loss=share) <= best_cost + margin:
+        if NEAR_TOTALS[0] * best_total <= total <= NEAR_TOTALS[1] * best_total and _cost(arr, u, loss=share) <= best_cost + margin:
             out.add(round(float(total), 2))
     return sorted(out)
 
@@ -258,7 +280,7 @@ def bounded_alternatives(integrals: Sequence[float], allowed_totals: Sequence[in
     best_cost = _cost(arr, best_unit, loss=share)
     best_total = arr.sum() / best_unit
     signals = _signals(arr, best_unit, share)
-    competing: list[float] = []
+    competing: list[tuple[float, float]] = []
     near: list[float] = []
     for cost, unit, _ in _bounded_fits(arr, share, allowed_totals):
         total = float(arr.sum() / unit)
@@ -267,10 +289,16 @@ def bounded_alternatives(integrals: Sequence[float], allowed_totals: Sequence[in
         if not _keeps_signals(arr, unit, signals, share):
             continue
         if abs(total - best_total) >= 0.25 * best_total:
-            competing.append(unit)
+            competing.append((cost, unit))
         else:
             near.append(round(total, 2))
-    return competing, near
+    # Two allowed totals can settle on about the same unit (10 and 11 H both read as 10.0-10.1 H):
+    # that is one reading, the better-fitting one.
+    kept: list[float] = []
+    for _, unit in sorted(competing):
+        if all(abs(arr.sum() / unit - arr.sum() / other) >= 0.5 for other in kept):
+            kept.append(unit)
+    return kept, near
 
 
 def _polish(arr: np.ndarray, unit: float) -> float:
