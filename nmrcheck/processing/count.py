@@ -90,6 +90,22 @@ def _cost(integrals: np.ndarray, unit: float, parsimony: float = PARSIMONY, loss
     return float(misfit + parsimony * n.sum() / n.size + MINOR_PENALTY * minor_share)
 
 
+def _costs(integrals: np.ndarray, units: np.ndarray, loss: np.ndarray | None = None) -> np.ndarray:
+    """:func:`_cost` of many units at once (one row of regions per unit; inf where no region is a signal)."""
+    h = integrals[None, :] / np.asarray(units, float)[:, None]
+    major = h >= 0.5 if loss is None else h >= 0.5 * (1.0 - loss)[None, :]
+    n = np.maximum(np.round(h), 1.0)
+    sigma = RELATIVE_ERROR * n + ABSOLUTE_ERROR
+    if loss is not None:
+        sigma = np.where(h < n, sigma + loss[None, :] * n, sigma)
+    signals = major.sum(axis=1)
+    per = np.maximum(signals, 1)
+    misfit = np.where(major, ((h - n) / sigma) ** 2, 0.0).sum(axis=1) / per
+    occam = PARSIMONY * np.where(major, n, 0.0).sum(axis=1) / per
+    minor = MINOR_PENALTY * np.where(major, 0.0, integrals[None, :]).sum(axis=1) / integrals.sum()
+    return np.where(signals > 0, misfit + occam + minor, np.inf)
+
+
 def _positive(integrals: Sequence[float], loss: Sequence[float] | None) -> tuple[np.ndarray, np.ndarray | None]:
     """The positive integrals, and the threshold losses of the same regions (None when not given)."""
     values = np.asarray(integrals, float)
@@ -118,10 +134,15 @@ def threshold_loss(peak_over_threshold: float) -> float:
 
 
 def _candidate_units(arr: np.ndarray, max_h_per_region: int) -> np.ndarray:
+    """Each of the 16 largest integrals over 1..``max_h_per_region``, and each of those refined (:func:`_polish`)."""
     top = np.sort(arr)[::-1][:16]
-    cands = np.unique(np.concatenate([top / m for m in range(1, max_h_per_region + 1)]))
+    cands = np.unique(top[:, None] / np.arange(1, max_h_per_region + 1)[None, :])
     cands = cands[cands >= arr.max() / (3 * max_h_per_region)]
-    return np.unique(np.concatenate([cands, [_polish(arr, u) for u in cands]]))
+    h = np.maximum(np.round(arr[None, :] / cands[:, None]), 0.0)
+    h = np.where(h >= 1, h, 0.0)
+    den = (h * h).sum(axis=1)
+    polished = np.where(den > 0, (arr[None, :] * h).sum(axis=1) / np.where(den > 0, den, 1.0), cands)
+    return np.unique(np.concatenate([cands, polished]))
 
 
 def competing_units(integrals: Sequence[float], best_unit: float, *, margin: float = AMBIGUITY_MARGIN,
@@ -167,14 +188,15 @@ def competing_units(integrals: Sequence[float], best_unit: float, *, margin: flo
         if abs(total - best_total) >= 0.25 * best_total:
             out[total] = float(u)
     # On a side where no multiple fits, the best-fitting unit of any size beyond near_totals' reach.
-    best_cost = _cost(arr, best_unit, loss=share)
+    units = _candidate_units(arr, max_h_per_region)
+    costs = _costs(arr, units, share)
+    totals = arr.sum() / units
     reach = arr.sum() / best_unit * np.array(NEAR_TOTALS)
-    far = [float(u) for u in _candidate_units(arr, max_h_per_region)
-           if not reach[0] <= arr.sum() / u <= reach[1]
-           and _keeps_signals(arr, u, signals, share) and _cost(arr, u, loss=share) <= best_cost + margin]
+    fit = (costs <= _cost(arr, best_unit, loss=share) + margin) & ((totals < reach[0]) | (totals > reach[1]))
+    far = [(float(c), float(u)) for c, u in zip(costs[fit], units[fit]) if _keeps_signals(arr, u, signals, share)]
     for side in (-1, 1):
         if not any((t - best_total) * side > 0 for t in out):
-            fits = [(_cost(arr, u, loss=share), u) for u in far if (arr.sum() / u - best_total) * side > 0]
+            fits = [(c, u) for c, u in far if (arr.sum() / u - best_total) * side > 0]
             if fits:
                 u = min(fits)[1]
                 out[int(_misfit(arr, u, share)[2].sum())] = u
@@ -194,11 +216,10 @@ def near_totals(integrals: Sequence[float], best_unit: float, *, margin: float =
     arr, share = _positive(integrals, loss)
     best_cost = _cost(arr, best_unit, loss=share)
     best_total = arr.sum() / best_unit
-    out = set()
-    for u in _candidate_units(arr, max_h_per_region):
-        total = arr.sum() / u
-        if NEAR_TOTALS[0] * best_total <= total <= NEAR_TOTALS[1] * best_total and _cost(arr, u, loss=share) <= best_cost + margin:
-            out.add(round(float(total), 2))
+    units = _candidate_units(arr, max_h_per_region)
+    totals = arr.sum() / units
+    near = (NEAR_TOTALS[0] * best_total <= totals) & (totals <= NEAR_TOTALS[1] * best_total)
+    out = {round(float(t), 2) for t in totals[near & (_costs(arr, units, share) <= best_cost + margin)]}
     return sorted(out)
 
 
@@ -215,12 +236,13 @@ def find_unit(integrals: Sequence[float], *, max_h_per_region: int = 12, loss: S
     arr, share = _positive(integrals, loss)
     if arr.size == 0:
         raise ParameterError("integrals: no positive region to count protons from")
-    best_u, best_c = float(arr.max()), np.inf
-    for u in _candidate_units(arr, max_h_per_region):
-        c = _cost(arr, u, loss=share)
-        if c < best_c - 1e-12:
-            best_u, best_c = float(u), c
-    return best_u, best_c
+    units = _candidate_units(arr, max_h_per_region)
+    costs = _costs(arr, units, share)
+    if not np.isfinite(costs).any():
+        return float(arr.max()), np.inf
+    # The smallest unit among those that fit best (ties within rounding).
+    best = int(np.flatnonzero(costs <= costs.min() + 1e-12)[0])
+    return float(units[best]), float(costs[best])
 
 
 def _bounded_fits(arr: np.ndarray, share: np.ndarray | None, allowed_totals: Sequence[int]) -> list[tuple[float, float, int]]:
