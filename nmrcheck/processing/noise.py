@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["noise_level"]
+__all__ = ["channel_noise", "noise_level"]
 
 
 def noise_level(values: np.ndarray, *, blocks: int = 128) -> float:
@@ -30,3 +30,9 @@ def noise_level(values: np.ndarray, *, blocks: int = 128) -> float:
     sd = np.sqrt(np.mean(centred * centred, axis=1))
     quiet = np.sort(sd)[: max(1, m // 4)]
     return float(np.median(quiet) * 1.04) or 1e-30
+
+
+def channel_noise(data: np.ndarray) -> float:
+    """Noise standard deviation of one quadrature channel of a complex trace (the unit of every SNR threshold
+    of the phase correction)."""
+    return float(np.sqrt(0.5 * (noise_level(data.real) ** 2 + noise_level(data.imag) ** 2)))

@@ -31,7 +31,7 @@ from scipy.ndimage import label, maximum_filter1d, uniform_filter1d
 from scipy.signal import find_peaks
 
 from nmrcheck.errors import ParameterError
-from nmrcheck.processing.noise import noise_level
+from nmrcheck.processing.noise import channel_noise
 from nmrcheck.processing.results import PhaseCorrection
 from nmrcheck.processing.spectrum import ProcessingStep, Spectrum
 
@@ -105,11 +105,6 @@ def _allowed_mask(spectrum: Spectrum, exclude_ppm: Sequence[tuple[float, float]]
     return allowed
 
 
-def channel_noise(data: np.ndarray) -> float:
-    """Noise standard deviation of one quadrature channel (the unit of every SNR threshold here)."""
-    return float(np.sqrt(0.5 * (noise_level(data.real) ** 2 + noise_level(data.imag) ** 2)))
-
-
 def _half_height_widths(mag: np.ndarray, idx: np.ndarray, limit: int = 4000) -> np.ndarray:
     """Full width (points) of each peak of ``mag`` at half its height, searched at most ``limit`` points each way."""
     n = mag.size
@@ -140,7 +135,7 @@ def peak_phases(
     data = spectrum.data
     mag = np.abs(data)
     n = mag.size
-    sigma = channel_noise(data)
+    sigma = spectrum.channel_noise
     allowed = _allowed_mask(spectrum, exclude_ppm)
     # Local maxima over +-3 points that stand clear of the noise.
     is_max = (mag == maximum_filter1d(mag, size=7)) & allowed & (mag > min_snr * sigma)
@@ -243,7 +238,7 @@ def signal_groups(
     n = data.size
     mag = np.abs(data)
     allowed = _allowed_mask(spectrum, exclude_ppm)
-    floor = min_snr * channel_noise(data)
+    floor = min_snr * spectrum.channel_noise
     idx = find_peaks(mag, height=floor, prominence=floor)[0]
     if idx.size == 0:
         return []
@@ -408,7 +403,7 @@ def group_phases(spectrum: Spectrum, groups: Sequence[SignalGroup], *, edge_frac
     """
     data = spectrum.data
     n = data.size
-    sigma = channel_noise(data)
+    sigma = spectrum.channel_noise
     mag = np.abs(data)
     out: list[GroupPhase] = []
     for g in groups:
@@ -668,13 +663,13 @@ def auto_phase(
             p0, p1 = float(np.degrees(np.angle(z.sum()))), float(p1_centre_deg)
         method, used = "peak-phase regression" if fit_p1 else "peak phase (zero order only)", len(peaks)
     if groups and prior_full_snr is not None:
-        tallest = max(g.height for g in groups) / channel_noise(spectrum.data)
+        tallest = max(g.height for g in groups) / spectrum.channel_noise
         p1_prior_weight = p1_prior_weight * min(1.0, (prior_full_snr / tallest) ** 2)
     if groups and iterations:
         # Pivot at the strongest group, where p0 and p1 are least correlated.
         pivot_x = max(groups, key=lambda g: g.height).x
         edge = max(2, int(round(baseline_edge_hz / spectrum.hz_per_point)))
-        floor = signal_floor_snr * channel_noise(spectrum.data)
+        floor = signal_floor_snr * spectrum.channel_noise
         smooth = max(1, int(round(signal_smoothing_hz / spectrum.hz_per_point)))
         x = np.arange(spectrum.size) / spectrum.size
         for _ in range(iterations):

@@ -6,7 +6,6 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from nmrcheck.processing.noise import noise_level
 from nmrcheck.processing.results import Reference
 from nmrcheck.processing.solvents import AQUEOUS, SolventSignal, known_solvents, normalise_solvent, solvent_signals
 from nmrcheck.processing.spectrum import ProcessingStep, Spectrum
@@ -27,13 +26,14 @@ def half_height_width_hz(spectrum: Spectrum, i: int) -> float:
     """Full width at half height of the line whose top is point ``i``, Hz (searched up to 30 Hz each way)."""
     y = spectrum.data.real
     half = y[i] / 2.0
-    lo, hi = i, i
     limit = int(30.0 / spectrum.hz_per_point) + 2
-    while lo > 0 and y[lo] > half and i - lo < limit:
-        lo -= 1
-    while hi < y.size - 1 and y[hi] > half and hi - i < limit:
-        hi += 1
-    return (hi - lo) * spectrum.hz_per_point
+    # Points from the top outward on each side; each side stops at its first point at or under half
+    # height, at the end of the spectrum, or ``limit`` points out.
+    left = y[max(0, i - limit) : i + 1][::-1] <= half
+    right = y[i : min(y.size, i + limit + 1)] <= half
+    out_left = int(np.argmax(left)) if left.any() else left.size - 1
+    out_right = int(np.argmax(right)) if right.any() else right.size - 1
+    return (out_left + out_right) * spectrum.hz_per_point
 
 
 def _is_isolated(spectrum: Spectrum, i: int, distance_hz: float) -> bool:
@@ -46,7 +46,7 @@ def _is_isolated(spectrum: Spectrum, i: int, distance_hz: float) -> bool:
     peaks = np.flatnonzero((seg[1:-1] >= seg[:-2]) & (seg[1:-1] > seg[2:])) + lo
     others = peaks[np.abs(peaks - i) > core]
     # Noise maxima are not partners: only neighbours clear of the noise count.
-    return not np.any(y[others] > max(0.25 * y[i], 5.0 * noise_level(y)))
+    return not np.any(y[others] > max(0.25 * y[i], 5.0 * spectrum.real_noise))
 
 
 #: Couplings between lines of one analyte multiplet that a residual singlet is told from, Hz
@@ -72,7 +72,7 @@ def is_multiplet_line(spectrum: Spectrum, i: int, *, ratio: float = 0.25) -> boo
     a, b = max(1, i - reach), min(y.size - 1, i + reach + 1)
     seg = y[a - 1 : b + 1]
     peaks = np.flatnonzero((seg[1:-1] >= seg[:-2]) & (seg[1:-1] > seg[2:])) + a
-    floor = max(ratio * y[i], 5.0 * noise_level(y))
+    floor = max(ratio * y[i], 5.0 * spectrum.real_noise)
     peaks = peaks[(y[peaks] > floor) & (np.abs(peaks - i) * hz >= lo_hz)]
     if peaks.size < 2:
         return False
@@ -131,7 +131,7 @@ def has_carbon_satellites(spectrum: Spectrum, i: int) -> bool:
     one-bond coupling (50-115 Hz), each 0.2-1.2 % of it and clear of the noise (common practice)."""
     y = spectrum.data.real
     hz = spectrum.hz_per_point
-    floor = 3.0 * noise_level(y)
+    floor = 3.0 * spectrum.real_noise
     core = max(1, int(round(1.5 / hz)))
     for d_hz in np.arange(SATELLITE_HALF_J_HZ[0], SATELLITE_HALF_J_HZ[1] + 1e-9, 0.5):
         d = int(round(d_hz / hz))
@@ -244,7 +244,7 @@ def find_peak(
     spaced multiplet (:func:`is_multiplet_line`) is not taken.
     """
     y = spectrum.data.real
-    floor = min_snr * noise_level(y)
+    floor = min_snr * spectrum.real_noise
     for w in sorted({min(0.03, window_ppm), min(0.1, window_ppm), window_ppm}):
         sl = spectrum.slice_of(centre_ppm + w, centre_ppm - w)
         seg = y[sl]
@@ -317,7 +317,7 @@ def _any_line(spectrum: Spectrum, ppm: float, *, window_ppm: float, min_snr: flo
     y = spectrum.data.real
     sl = spectrum.slice_of(ppm + window_ppm, ppm - window_ppm)
     seg = y[sl]
-    floor = min_snr * noise_level(y)
+    floor = min_snr * spectrum.real_noise
     return bool(seg.size >= 3 and np.any((seg[1:-1] >= seg[:-2]) & (seg[1:-1] > seg[2:]) & (seg[1:-1] > floor)))
 
 

@@ -3,11 +3,13 @@
 from __future__ import annotations
 
 from dataclasses import dataclass, field, replace
+from functools import cached_property
 from typing import Any, Mapping
 
 import numpy as np
 
 from nmrcheck.io.records import Acquisition
+from nmrcheck.processing.noise import channel_noise, noise_level
 
 __all__ = ["ProcessingStep", "Spectrum"]
 
@@ -56,6 +58,16 @@ class Spectrum:
     @property
     def real(self) -> np.ndarray:
         return self.data.real
+
+    @cached_property
+    def real_noise(self) -> float:
+        """Noise standard deviation of the real part (:func:`nmrcheck.processing.noise.noise_level`), found once."""
+        return noise_level(self.data.real)
+
+    @cached_property
+    def channel_noise(self) -> float:
+        """Noise standard deviation of one quadrature channel (:func:`nmrcheck.processing.noise.channel_noise`), found once."""
+        return channel_noise(self.data)
 
     @property
     def hz_per_point(self) -> float:
