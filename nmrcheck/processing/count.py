@@ -139,7 +139,6 @@ def _candidate_units(arr: np.ndarray, max_h_per_region: int) -> np.ndarray:
     cands = np.unique(top[:, None] / np.arange(1, max_h_per_region + 1)[None, :])
     cands = cands[cands >= arr.max() / (3 * max_h_per_region)]
     h = np.maximum(np.round(arr[None, :] / cands[:, None]), 0.0)
-    h = np.where(h >= 1, h, 0.0)
     den = (h * h).sum(axis=1)
     polished = np.where(den > 0, (arr[None, :] * h).sum(axis=1) / np.where(den > 0, den, 1.0), cands)
     return np.unique(np.concatenate([cands, polished]))
@@ -148,7 +147,8 @@ def _candidate_units(arr: np.ndarray, max_h_per_region: int) -> np.ndarray:
 def competing_units(integrals: Sequence[float], best_unit: float, *, margin: float = AMBIGUITY_MARGIN,
                     detection_limit: float | None = None, loss: Sequence[float] | None = None,
                     max_h_per_region: int = 12) -> list[float]:
-    """Units giving two or three times (or a half or a third of) the best count at nearly its cost.
+    """Second readings of the count: units giving two or three times (or a half or a third of) the best
+    count at nearly its cost, or, on a side where none does, the best-fitting unit further away.
 
     Relaxation weighting, overlap and a few missing or extra protons can make the
     integrals fit n and 2n protons about equally: every 2 H signal reading as 1 H,
