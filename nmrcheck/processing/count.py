@@ -84,14 +84,12 @@ def _keeps_signals(integrals: np.ndarray, unit: float, signals: np.ndarray, loss
 
 def _cost(integrals: np.ndarray, unit: float, parsimony: float = PARSIMONY, loss: np.ndarray | None = None) -> float:
     """Misfit of region integrals to whole protons at ``unit``, plus the Occam and minor-signal terms."""
-    misfit, minor_share, n = _misfit(integrals, unit, loss)
-    if not np.isfinite(misfit):
-        return np.inf
-    return float(misfit + parsimony * n.sum() / n.size + MINOR_PENALTY * minor_share)
+    return float(_costs(integrals, np.array([unit]), loss, parsimony)[0])
 
 
-def _costs(integrals: np.ndarray, units: np.ndarray, loss: np.ndarray | None = None) -> np.ndarray:
-    """:func:`_cost` of many units at once (one row of regions per unit; inf where no region is a signal)."""
+def _costs(integrals: np.ndarray, units: np.ndarray, loss: np.ndarray | None = None, parsimony: float = PARSIMONY) -> np.ndarray:
+    """:func:`_cost` of many units at once (one row of regions per unit; inf where no region is a signal): the
+    mean squared misfit of :func:`_misfit`, ``parsimony`` per proton per signal, and the minor-signal share."""
     h = integrals[None, :] / np.asarray(units, float)[:, None]
     major = h >= 0.5 if loss is None else h >= 0.5 * (1.0 - loss)[None, :]
     n = np.maximum(np.round(h), 1.0)
@@ -101,7 +99,7 @@ def _costs(integrals: np.ndarray, units: np.ndarray, loss: np.ndarray | None = N
     signals = major.sum(axis=1)
     per = np.maximum(signals, 1)
     misfit = np.where(major, ((h - n) / sigma) ** 2, 0.0).sum(axis=1) / per
-    occam = PARSIMONY * np.where(major, n, 0.0).sum(axis=1) / per
+    occam = parsimony * np.where(major, n, 0.0).sum(axis=1) / per
     minor = MINOR_PENALTY * np.where(major, 0.0, integrals[None, :]).sum(axis=1) / integrals.sum()
     return np.where(signals > 0, misfit + occam + minor, np.inf)
 

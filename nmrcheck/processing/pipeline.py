@@ -13,7 +13,6 @@ from nmrcheck.io import Fid, SpectrumFile, read_any
 from nmrcheck.io.records import Acquisition
 from nmrcheck.processing.baseline import correct_baseline
 from nmrcheck.processing.count import count_protons, threshold_loss
-from nmrcheck.processing.noise import noise_level
 from nmrcheck.processing.phase import apply_phase, auto_phase, channel_noise, signal_groups
 from nmrcheck.processing.reference import half_height_width_hz, reference_axis, solvent_from_spectrum
 from nmrcheck.processing.regions import find_regions
@@ -342,7 +341,7 @@ def process(source: Fid | SpectrumFile | str | os.PathLike, options: ProcessingO
         # Suppression ranges move with the axis.
         shift = ref.ppm - (ref.found_ppm if ref.found_ppm is not None else ref.ppm)
         exclude = [(a + shift, b + shift, c + shift) for a, b, c in exclude]
-    noise = noise_level(spec.data.real)
+    noise = spec.real_noise
     # The suppressed line's foot that phasing and the baseline left behind is not analyte: lines
     # standing on it are integrated above a local straight baseline.
     # Only the saturation hole and the residual line's body are left out (presaturation
